@@ -1,0 +1,86 @@
+"""Database engine, sessions and the declarative base shared by every feature."""
+
+from __future__ import annotations
+
+import uuid
+from collections.abc import Iterator
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import DateTime, Engine, MetaData, String, create_engine, event
+from sqlalchemy.orm import DeclarativeBase, Mapped, Session, mapped_column, sessionmaker
+
+# Stable constraint names, so migrations can alter constraints on every engine.
+NAMING_CONVENTION = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+
+class Base(DeclarativeBase):
+    metadata = MetaData(naming_convention=NAMING_CONVENTION)
+
+
+def utcnow() -> datetime:
+    return datetime.now(UTC)
+
+
+def new_id() -> str:
+    return str(uuid.uuid4())
+
+
+def uuid_pk() -> Mapped[str]:
+    return mapped_column(String(36), primary_key=True, default=new_id)
+
+
+def created_at_column() -> Mapped[datetime]:
+    return mapped_column(DateTime(timezone=True), default=utcnow, nullable=False)
+
+
+def import_all_models() -> None:
+    """Import every feature's models so Base.metadata knows every table."""
+    from server.accounts import models as _accounts  # noqa: F401
+    from server.audit import models as _audit  # noqa: F401
+    from server.catalogue import models as _catalogue  # noqa: F401
+    from server.maintenance import models as _maintenance  # noqa: F401
+    from server.proposals import models as _proposals  # noqa: F401
+    from server.quotes import models as _quotes  # noqa: F401
+    from server.sites import models as _sites  # noqa: F401
+    from server.workorders import models as _workorders  # noqa: F401
+
+
+def make_engine(database_url: str, *, busy_timeout_ms: int = 5000) -> Engine:
+    """An engine for SQLite (WAL, foreign keys, busy timeout) or PostgreSQL."""
+    if database_url.startswith("sqlite"):
+        path = database_url.split("///", 1)[-1]
+        if path and path != ":memory:":
+            Path(path).parent.mkdir(parents=True, exist_ok=True)
+        engine = create_engine(
+            database_url,
+            connect_args={"timeout": busy_timeout_ms / 1000, "check_same_thread": False},
+        )
+
+        @event.listens_for(engine, "connect")
+        def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+            cursor = dbapi_connection.cursor()
+            cursor.execute("PRAGMA foreign_keys=ON")
+            cursor.execute("PRAGMA journal_mode=WAL")
+            cursor.execute(f"PRAGMA busy_timeout={int(busy_timeout_ms)}")
+            cursor.execute("PRAGMA synchronous=NORMAL")
+            cursor.close()
+
+        return engine
+    return create_engine(database_url, pool_pre_ping=True)
+
+
+def make_session_factory(engine: Engine) -> sessionmaker[Session]:
+    return sessionmaker(bind=engine, expire_on_commit=False)
+
+
+def session_scope(factory: sessionmaker[Session]) -> Iterator[Session]:
+    with factory() as session:
+        yield session

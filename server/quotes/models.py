@@ -1,0 +1,67 @@
+"""Quotes for a building's conversions, and their lines. Money is Decimal."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from decimal import Decimal
+
+from sqlalchemy import Date, DateTime, ForeignKey, Integer, Numeric, String, Text
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from server.common.models import OrgOwned
+from server.db import Base, new_id
+
+
+class QuoteState:
+    DRAFT = "draft"
+    SENT = "sent"
+    ACCEPTED = "accepted"
+    DECLINED = "declined"
+    ISSUED = "issued"
+    COMPLETED = "completed"
+
+
+class Quote(OrgOwned, Base):
+    __tablename__ = "quotes"
+
+    building_id: Mapped[str] = mapped_column(
+        String(36), ForeignKey("buildings.id", ondelete="CASCADE"), index=True
+    )
+    number: Mapped[str] = mapped_column(String(30))
+    state: Mapped[str] = mapped_column(String(20), default=QuoteState.DRAFT)
+    labour_rate: Mapped[Decimal] = mapped_column(Numeric(10, 2))
+    markup_pct: Mapped[Decimal] = mapped_column(Numeric(6, 2), default=Decimal("0"))
+    discount_pct: Mapped[Decimal] = mapped_column(Numeric(6, 2), default=Decimal("0"))
+    tax_pct: Mapped[Decimal] = mapped_column(Numeric(6, 2), default=Decimal("0"))
+    valid_until: Mapped[date | None] = mapped_column(Date)
+    scope: Mapped[str] = mapped_column(Text, default="")
+    assumptions: Mapped[str] = mapped_column(Text, default="")
+    created_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
+    state_changed_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
+    state_changed_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+
+    lines: Mapped[list[QuoteLine]] = relationship(
+        back_populates="quote", lazy="raise", order_by="QuoteLine.position"
+    )
+
+
+class QuoteLine(Base):
+    __tablename__ = "quote_lines"
+
+    id: Mapped[str] = mapped_column(String(36), primary_key=True, default=new_id)
+    quote_id: Mapped[str] = mapped_column(
+        String(36), ForeignKey("quotes.id", ondelete="CASCADE"), index=True
+    )
+    position: Mapped[int] = mapped_column(Integer, default=0)
+    kind: Mapped[str] = mapped_column(String(20))  # material, labour, supply, sundry, manual
+    description: Mapped[str] = mapped_column(String(500))
+    quantity: Mapped[Decimal] = mapped_column(Numeric(12, 3))
+    unit: Mapped[str] = mapped_column(String(20), default="ea")
+    unit_price: Mapped[Decimal] = mapped_column(Numeric(12, 2))
+    fixture_id: Mapped[str | None] = mapped_column(
+        String(36), ForeignKey("fixtures.id", ondelete="SET NULL")
+    )
+    item_ref: Mapped[str | None] = mapped_column(String(36))
+    override_reason: Mapped[str] = mapped_column(Text, default="")
+
+    quote: Mapped[Quote] = relationship(back_populates="lines", lazy="raise")
