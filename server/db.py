@@ -8,8 +8,16 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import DateTime, Engine, MetaData, String, create_engine, event
-from sqlalchemy.orm import DeclarativeBase, Mapped, Session, mapped_column, sessionmaker
+from sqlalchemy import (
+    DateTime,
+    Dialect,
+    Engine,
+    MetaData,
+    TypeDecorator,
+    create_engine,
+    event,
+)
+from sqlalchemy.orm import DeclarativeBase, Session, sessionmaker
 
 # Stable constraint names, so migrations can alter constraints on every engine.
 NAMING_CONVENTION = {
@@ -19,6 +27,27 @@ NAMING_CONVENTION = {
     "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
     "pk": "pk_%(table_name)s",
 }
+
+
+class UtcDateTime(TypeDecorator[datetime]):
+    """A timestamp with time zone, read back as UTC-aware on every engine.
+
+    PostgreSQL keeps the zone (timestamptz); SQLite stores text without it, so
+    values read from SQLite are marked UTC, which is what was written.
+    """
+
+    impl = DateTime(timezone=True)
+    cache_ok = True
+
+    def process_bind_param(self, value: datetime | None, dialect: Dialect) -> datetime | None:
+        if value is not None and value.tzinfo is None:
+            raise ValueError("timestamps must carry a time zone (use server.db.utcnow())")
+        return value
+
+    def process_result_value(self, value: datetime | None, dialect: Dialect) -> datetime | None:
+        if value is not None and value.tzinfo is None:
+            return value.replace(tzinfo=UTC)
+        return value
 
 
 class Base(DeclarativeBase):
@@ -31,14 +60,6 @@ def utcnow() -> datetime:
 
 def new_id() -> str:
     return str(uuid.uuid4())
-
-
-def uuid_pk() -> Mapped[str]:
-    return mapped_column(String(36), primary_key=True, default=new_id)
-
-
-def created_at_column() -> Mapped[datetime]:
-    return mapped_column(DateTime(timezone=True), default=utcnow, nullable=False)
 
 
 def import_all_models() -> None:

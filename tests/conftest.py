@@ -15,11 +15,13 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
+from argon2 import PasswordHasher
 from fastapi.testclient import TestClient
 from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from server import migrate
+from server.accounts import security
 from server.accounts import service as accounts
 from server.accounts.models import Role
 from server.app import create_app
@@ -32,6 +34,15 @@ TEST_SECRET = "test-secret-key-not-for-production"
 
 def postgres_url() -> str | None:
     return os.environ.get("TEST_DATABASE_URL") or None
+
+
+@pytest.fixture(autouse=True, scope="session")
+def _fast_password_hashing() -> Iterator[None]:
+    """Argon2 with its cheapest parameters: still argon2, much faster for many test users."""
+    saved = security._HASHER
+    security._HASHER = PasswordHasher(time_cost=1, memory_cost=1024, parallelism=1)
+    yield
+    security._HASHER = saved
 
 
 @pytest.fixture(scope="session")

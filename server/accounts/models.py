@@ -6,10 +6,10 @@ from datetime import datetime
 from decimal import Decimal
 from enum import StrEnum
 
-from sqlalchemy import Boolean, DateTime, ForeignKey, Numeric, String
+from sqlalchemy import Boolean, ForeignKey, Numeric, String
 from sqlalchemy.orm import Mapped, mapped_column
 
-from server.db import Base, new_id, utcnow
+from server.db import Base, UtcDateTime, new_id, utcnow
 
 
 class Role(StrEnum):
@@ -42,7 +42,7 @@ class Organisation(Base):
     paper_size: Mapped[str] = mapped_column(String(10), default=PaperSize.A4.value)
     currency: Mapped[str] = mapped_column(String(3), default="USD")
     labour_rate: Mapped[Decimal] = mapped_column(Numeric(10, 2), default=Decimal("65.00"))
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
 
 
 class User(Base):
@@ -57,7 +57,7 @@ class User(Base):
     role: Mapped[str] = mapped_column(String(20))
     password_hash: Mapped[str] = mapped_column(String(200))
     active: Mapped[bool] = mapped_column(Boolean, default=True)
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
 
     @property
     def role_enum(self) -> Role:

@@ -5,10 +5,10 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import JSON, DateTime, ForeignKey, String
+from sqlalchemy import JSON, ForeignKey, String
 from sqlalchemy.orm import Mapped, mapped_column
 
-from server.db import Base, new_id, utcnow
+from server.db import Base, UtcDateTime, new_id, utcnow
 
 
 class AuditEntry(Base):
@@ -21,7 +21,7 @@ class AuditEntry(Base):
     user_id: Mapped[str | None] = mapped_column(
         String(36), ForeignKey("users.id", ondelete="SET NULL")
     )
-    at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow, index=True)
+    at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow, index=True)
     entity: Mapped[str] = mapped_column(String(50))
     entity_id: Mapped[str] = mapped_column(String(36), index=True)
     action: Mapped[str] = mapped_column(String(30))

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from sqlalchemy import DateTime, ForeignKey, Integer, String
+from sqlalchemy import ForeignKey, Integer, String
 from sqlalchemy.orm import Mapped, declared_attr, mapped_column
 
-from server.db import new_id, utcnow
+from server.db import UtcDateTime, new_id, utcnow
 
 
 class OrgOwned:
@@ -20,11 +20,9 @@ class OrgOwned:
 
     id: Mapped[str] = mapped_column(String(36), primary_key=True, default=new_id)
     version: Mapped[int] = mapped_column(Integer, nullable=False, default=1)
-    created_at: Mapped[datetime] = mapped_column(
-        DateTime(timezone=True), default=utcnow, nullable=False
-    )
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow, nullable=False)
     updated_at: Mapped[datetime] = mapped_column(
-        DateTime(timezone=True), default=utcnow, onupdate=utcnow, nullable=False
+        UtcDateTime(), default=utcnow, onupdate=utcnow, nullable=False
     )
 
     @declared_attr

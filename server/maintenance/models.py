@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from datetime import date, datetime
 
-from sqlalchemy import Date, DateTime, Float, ForeignKey, String, Text
+from sqlalchemy import Date, Float, ForeignKey, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
-from server.db import Base, new_id, utcnow
+from server.db import Base, UtcDateTime, new_id, utcnow
 
 
 class TestRecord(Base):
@@ -25,7 +25,7 @@ class TestRecord(Base):
     tested_on: Mapped[date] = mapped_column(Date)
     tested_by: Mapped[str] = mapped_column(String(200))
     recorded_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
-    recorded_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    recorded_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
     result: Mapped[str] = mapped_column(String(10))  # pass, fail
     observed_duration_min: Mapped[float | None] = mapped_column(Float)
     open_circuit_v: Mapped[float | None] = mapped_column(Float)

@@ -5,11 +5,11 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import JSON, DateTime, Float, ForeignKey, String, Text
+from sqlalchemy import JSON, Float, ForeignKey, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from server.common.models import OrgOwned
-from server.db import Base
+from server.db import Base, UtcDateTime
 
 
 class Proposal(OrgOwned, Base):
@@ -34,5 +34,5 @@ class Proposal(OrgOwned, Base):
     eblf: Mapped[float | None] = mapped_column(Float)
     eblf_is_estimate: Mapped[bool | None] = mapped_column()
     emergency_lumens: Mapped[float | None] = mapped_column(Float)
-    computed_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+    computed_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
     override_reason: Mapped[str] = mapped_column(Text, default="")

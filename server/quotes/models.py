@@ -4,12 +4,13 @@ from __future__ import annotations
 
 from datetime import date, datetime
 from decimal import Decimal
+from typing import Any
 
-from sqlalchemy import Date, DateTime, ForeignKey, Integer, Numeric, String, Text
+from sqlalchemy import Date, ForeignKey, Integer, Numeric, String, Text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.common.models import OrgOwned
-from server.db import Base, new_id
+from server.db import Base, UtcDateTime, new_id
 
 
 class QuoteState:
@@ -38,7 +39,7 @@ class Quote(OrgOwned, Base):
     assumptions: Mapped[str] = mapped_column(Text, default="")
     created_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
     state_changed_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
-    state_changed_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+    state_changed_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
 
     lines: Mapped[list[QuoteLine]] = relationship(
         back_populates="quote", lazy="raise", order_by="QuoteLine.position"
@@ -63,5 +64,7 @@ class QuoteLine(Base):
     )
     item_ref: Mapped[str | None] = mapped_column(String(36))
     override_reason: Mapped[str] = mapped_column(Text, default="")
+    # Added by migration 0003: a generated line changed by hand survives a rebuild.
+    hand_edited: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
 
     quote: Mapped[Quote] = relationship(back_populates="lines", lazy="raise")

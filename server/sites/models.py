@@ -7,7 +7,6 @@ from datetime import date, datetime
 from sqlalchemy import (
     Boolean,
     Date,
-    DateTime,
     Float,
     ForeignKey,
     Integer,
@@ -18,7 +17,7 @@ from sqlalchemy import (
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.common.models import OrgOwned
-from server.db import Base, new_id, utcnow
+from server.db import Base, UtcDateTime, new_id, utcnow
 
 
 class Building(OrgOwned, Base):
@@ -108,4 +107,4 @@ class FixturePhoto(Base):
     content_type: Mapped[str] = mapped_column(String(50))
     caption: Mapped[str] = mapped_column(String(200), default="")
     data: Mapped[bytes] = mapped_column(LargeBinary)
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)

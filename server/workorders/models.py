@@ -5,11 +5,11 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, Date, DateTime, Float, ForeignKey, String, Text
+from sqlalchemy import JSON, Boolean, Date, Float, ForeignKey, String, Text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.common.models import OrgOwned
-from server.db import Base
+from server.db import Base, UtcDateTime
 
 
 class WorkOrder(OrgOwned, Base):
@@ -26,9 +26,9 @@ class WorkOrder(OrgOwned, Base):
     crew: Mapped[str] = mapped_column(String(500), default="")
     scheduled_on: Mapped[date | None] = mapped_column(Date)
     issued_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
-    issued_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+    issued_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
     signed_off_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
-    signed_off_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+    signed_off_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
 
     tasks: Mapped[list[WorkOrderTask]] = relationship(back_populates="work_order", lazy="raise")
 
@@ -53,6 +53,6 @@ class WorkOrderTask(OrgOwned, Base):
     readings: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     problem: Mapped[str] = mapped_column(Text, default="")
     done_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
-    done_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True))
+    done_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
 
     work_order: Mapped[WorkOrder] = relationship(back_populates="tasks", lazy="raise")
