@@ -6,7 +6,18 @@ from datetime import date, datetime
 from decimal import Decimal
 from typing import Any
 
-from sqlalchemy import Date, ForeignKey, Integer, Numeric, String, Text
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    Date,
+    ForeignKey,
+    Integer,
+    Numeric,
+    String,
+    Text,
+    false,
+    text,
+)
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.common.models import OrgOwned
@@ -40,6 +51,29 @@ class Quote(OrgOwned, Base):
     created_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
     state_changed_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
     state_changed_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+    # Added by migration 0003: the client block, the labour allowances the
+    # generated lines are built from, and who moved the quote to each state when.
+    client_name: Mapped[str] = mapped_column(String(200), default="", server_default="")
+    client_address: Mapped[str] = mapped_column(String(500), default="", server_default="")
+    client_contact: Mapped[str] = mapped_column(String(200), default="", server_default="")
+    series_link_h: Mapped[Decimal] = mapped_column(
+        Numeric(6, 2), default=Decimal("0.25"), server_default=text("0.25")
+    )
+    supply_run_h: Mapped[Decimal] = mapped_column(
+        Numeric(6, 2), default=Decimal("1.50"), server_default=text("1.50")
+    )
+    commissioning_h: Mapped[Decimal] = mapped_column(
+        Numeric(6, 2), default=Decimal("0.50"), server_default=text("0.50")
+    )
+    sundries_per_fixture: Mapped[Decimal] = mapped_column(
+        Numeric(10, 2), default=Decimal("6.00"), server_default=text("6.00")
+    )
+    supply_run_materials: Mapped[Decimal] = mapped_column(
+        Numeric(10, 2), default=Decimal("18.00"), server_default=text("18.00")
+    )
+    history: Mapped[list[dict[str, Any]]] = mapped_column(
+        JSON, default=list, server_default=text("'[]'")
+    )
 
     lines: Mapped[list[QuoteLine]] = relationship(
         back_populates="quote", lazy="raise", order_by="QuoteLine.position"

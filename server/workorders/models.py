@@ -29,6 +29,8 @@ class WorkOrder(OrgOwned, Base):
     issued_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
     signed_off_by: Mapped[str | None] = mapped_column(String(36), ForeignKey("users.id"))
     signed_off_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+    # Added by migration 0003: notes for the crew, printed under the cautions.
+    crew_notes: Mapped[str] = mapped_column(Text, default="", server_default="")
 
     tasks: Mapped[list[WorkOrderTask]] = relationship(back_populates="work_order", lazy="raise")
 
