@@ -37,6 +37,7 @@ SECURITY_HEADERS = {
 def include_routers(app: FastAPI) -> None:
     from server.accounts import api as accounts_api
     from server.accounts import pages as accounts_pages
+    from server.calc import api as calc_api
     from server.catalogue import api as catalogue_api
     from server.sites import api as sites_api
 
@@ -44,6 +45,7 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(accounts_pages.router)
     app.include_router(sites_api.router)
     app.include_router(catalogue_api.router)
+    app.include_router(calc_api.router)
 
 
 def _field_named_in(message: str) -> str | None:

@@ -55,6 +55,8 @@ for _kind in ("ballast-types", "modules", "packs"):
     ROUTE_RULES[("GET", f"/api/v1/catalogue/{_kind}/{{record_id}}")] = S
     ROUTE_RULES[("PATCH", f"/api/v1/catalogue/{_kind}/{{record_id}}")] = E
     ROUTE_RULES[("DELETE", f"/api/v1/catalogue/{_kind}/{{record_id}}")] = E
+for _calculator in ("runtime", "recharge", "pack-health", "check"):
+    ROUTE_RULES[("POST", f"/api/v1/calc/{_calculator}")] = ANY
 
 # Which kind of record the first id in a path names, by the segment before it.
 ID_KINDS = {

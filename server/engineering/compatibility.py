@@ -718,7 +718,7 @@ def derive_case(
     try:
         estimate = batteries.estimate_runtime(pack, current_a, ambient_c)
     except InvalidInput as exc:
-        runtime_problem = str(exc)
+        runtime_problem = exc.reason
     else:
         runtime_new_min = estimate.runtime_new_h * 60.0
         runtime_end_of_life_min = estimate.runtime_end_of_life_h * 60.0
