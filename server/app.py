@@ -17,6 +17,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from server.accounts.ratelimit import AttemptLog
 from server.accounts.security import Signer
 from server.common.errors import Conflict, Forbidden, InvalidInput, NotFound
+from server.common.schemas import Problem
 from server.config import Settings, get_settings
 from server.db import make_engine, make_session_factory
 from server.templating import ROOT
@@ -39,6 +40,7 @@ def include_routers(app: FastAPI) -> None:
     from server.accounts import pages as accounts_pages
     from server.calc import api as calc_api
     from server.catalogue import api as catalogue_api
+    from server.quotes import api as quotes_api
     from server.sites import api as sites_api
 
     app.include_router(accounts_api.router)
@@ -46,6 +48,7 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(sites_api.router)
     app.include_router(catalogue_api.router)
     app.include_router(calc_api.router)
+    app.include_router(quotes_api.router)
 
 
 def _field_named_in(message: str) -> str | None:
@@ -133,6 +136,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         engine.dispose()
 
     app = FastAPI(
+        responses={
+            401: {"model": Problem, "description": "Not signed in, or the token expired."},
+            403: {"model": Problem, "description": "Your role may not do this, or no CSRF token."},
+        },
         title="Emergency Lighting Retrofit Planner",
         version="0.1.0",
         summary="Survey, check, price, document and maintain emergency luminaire conversions.",

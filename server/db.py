@@ -91,7 +91,8 @@ def make_engine(database_url: str, *, busy_timeout_ms: int = 5000) -> Engine:
             cursor.execute("PRAGMA foreign_keys=ON")
             cursor.execute("PRAGMA journal_mode=WAL")
             cursor.execute(f"PRAGMA busy_timeout={int(busy_timeout_ms)}")
-            cursor.execute("PRAGMA synchronous=NORMAL")
+            # FULL: an acknowledged write survives a power cut, not only a crashed process.
+            cursor.execute("PRAGMA synchronous=FULL")
             cursor.close()
 
         return engine

@@ -10,12 +10,20 @@ from fastapi.security import OAuth2PasswordRequestForm
 from server.accounts import schemas, service
 from server.accounts.models import Organisation
 from server.accounts.ratelimit import check_signin_allowed, record_signin_failure
+from server.common.schemas import Problem
 from server.deps import AdminUser, CurrentUser, SessionDep, SignerDep
 
 router = APIRouter(prefix="/api/v1", tags=["accounts"])
 
 
-@router.post("/auth/token", response_model=schemas.Token)
+@router.post(
+    "/auth/token",
+    response_model=schemas.Token,
+    responses={
+        401: {"model": Problem, "description": "Email or password is wrong."},
+        429: {"model": Problem, "description": "Too many failed sign-ins; wait 15 minutes."},
+    },
+)
 def issue_token(
     request: Request,
     form: Annotated[OAuth2PasswordRequestForm, Depends()],
