@@ -164,6 +164,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
             response.headers.setdefault(name, value)
         return response
 
+    @app.get("/healthz", tags=["operations"], summary="Liveness probe (touches no database)")
+    def healthz() -> dict[str, str]:
+        return {"status": "ok"}
+
     install_error_handlers(app)
     app.mount("/static", StaticFiles(directory=str(ROOT / "static")), name="static")
     include_routers(app)

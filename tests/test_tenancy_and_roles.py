@@ -25,6 +25,7 @@ S, E, V, A = Role.SURVEYOR, Role.ESTIMATOR, Role.SUPERVISOR, Role.ADMIN
 
 # (method, path) -> who may call it. Paths are the app's own templates.
 ROUTE_RULES: dict[tuple[str, str], str | Role] = {
+    ("GET", "/healthz"): PUBLIC,
     ("POST", "/api/v1/auth/token"): PUBLIC,
     ("GET", "/api/v1/me"): ANY,
     ("GET", "/api/v1/users"): A,
