@@ -461,10 +461,6 @@ FINDINGS: dict[str, FindingText] = {
 }
 
 
-def _fill(text: str, values: dict[str, object]) -> str:
-    return text.format_map(values) if "{" in text else text
-
-
 # Findings whose texts hold no field are built once and shared (they are frozen).
 _FIXED_FINDINGS: dict[str, Finding] = {
     code: Finding(code, text.severity, text.message, text.fix, text.source)
@@ -479,12 +475,13 @@ def make_finding(code: str, **values: object) -> Finding:
     if fixed is not None:
         return fixed
     text = FINDINGS[code]
+    message, fix, source = text.message, text.fix, text.source
     return Finding(
-        code=code,
-        severity=text.severity,
-        message=_fill(text.message, values),
-        fix=_fill(text.fix, values),
-        source=_fill(text.source, values),
+        code,
+        text.severity,
+        message.format_map(values) if "{" in message else message,
+        fix.format_map(values) if "{" in fix else fix,
+        source.format_map(values) if "{" in source else source,
     )
 
 
@@ -541,18 +538,18 @@ def temperature_findings(ambient_c: float, pack: Pack) -> list[Finding]:
     The over-maximum finding shows the life shortened by the temperature.
     """
     max_ambient_c = pack.max_ambient_c_used
-    values = {
-        "ambient": ambient_c,
-        "max_ambient": max_ambient_c,
-        "design": pack.design_life_years_used,
-        "band": NEAR_MAX_AMBIENT_K,
-    }
-    if ambient_c > max_ambient_c:
-        life = pack.service_life_years_at(ambient_c)
-        return [make_finding("temperature.over-max", life=life, **values)]
-    if ambient_c > max_ambient_c - NEAR_MAX_AMBIENT_K:
-        return [make_finding("temperature.near-max", **values)]
-    return []
+    if ambient_c <= max_ambient_c - NEAR_MAX_AMBIENT_K:
+        return []
+    code = "temperature.over-max" if ambient_c > max_ambient_c else "temperature.near-max"
+    finding = make_finding(
+        code,
+        ambient=ambient_c,
+        max_ambient=max_ambient_c,
+        design=pack.design_life_years_used,
+        band=NEAR_MAX_AMBIENT_K,
+        life=pack.service_life_years_at(ambient_c),
+    )
+    return [finding]
 
 
 def charge_findings(
