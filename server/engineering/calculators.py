@@ -7,7 +7,7 @@ assumptions it made. The full fixture/module/pack check is
 
 References
 ----------
-ENGINEERING.md section 2 of this project; each finding names its source.
+docs/engineering.md ("Battery packs"); each finding names its source.
 """
 
 from __future__ import annotations

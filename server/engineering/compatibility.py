@@ -12,7 +12,7 @@ any warns, else pass (:func:`~server.engineering.findings.verdict_of`).
 
 References
 ----------
-ENGINEERING.md section 5 of this project; the source of each finding is
+docs/engineering.md ("Compatibility rules"); the source of each finding is
 given in its :data:`FINDINGS` entry.
 """
 
@@ -456,7 +456,7 @@ FINDINGS: dict[str, FindingText] = {
         "{needed:.0f} lm from it.",
         "Choose a module with more output, convert more fixtures along the route, or back up "
         "more lamps.",
-        "route illuminance calculation (ENGINEERING.md section 6)",
+        "the route illuminance calculation (docs/routes.md)",
     ),
 }
 
@@ -1101,6 +1101,6 @@ def evaluate(
 
     References
     ----------
-    ENGINEERING.md section 5 of this project; each finding names its source.
+    docs/engineering.md ("Compatibility rules"); each finding names its source.
     """
     return evaluate_case(derive_case(fixture, module, pack, requirement, today=today))
