@@ -79,3 +79,14 @@ def test_a_user_profile_is_validated() -> None:
         )
     with pytest.raises(ValueError, match="unknown profile"):
         profiles.get_profile("no-such-profile")
+
+
+def test_points_of_emphasis_and_test_intervals() -> None:
+    # EN 1838:2013 §4.1 (checked against a page quoting it): a luminaire within
+    # 2 m of each point of emphasis; 5 lx vertical at first-aid points, fire
+    # equipment and call points. NFPA 101 §7.9.3: a functional test of at least
+    # 30 s at 30-day intervals and an annual full-duration test.
+    assert profiles.POINTS_OF_EMPHASIS_RADIUS_M == 2.0
+    assert profiles.SAFETY_EQUIPMENT_VERTICAL_LUX == 5.0
+    us = profiles.get_profile("us-egress")
+    assert (us.monthly_test_days, us.monthly_test_s, us.annual_test_days) == (30, 30.0, 365)
