@@ -399,12 +399,6 @@ def battery_current_a(load_w: float, pack_nominal_v: float) -> float:
     return load_w / pack_nominal_v
 
 
-def c_rate(current_a: float, capacity_ah: float) -> float:
-    """Current as a multiple of the rated capacity, I / C. [1/h]"""
-    require_positive("capacity_ah", capacity_ah)
-    return current_a / capacity_ah
-
-
 def _interpolate(points: tuple[tuple[float, float], ...], x: float) -> float:
     """Piecewise-linear interpolation; the end values outside the points."""
     x0, y0 = points[0]
