@@ -1,7 +1,7 @@
 """Compatibility rules: does this module and pack suit this fixture and area?
 
 A rule is a small function over a :class:`Case` (the fixture, module, pack
-and requirement, with the figures derived from them once) that yields
+and requirement, with the figures derived from them once) that returns a list of
 :class:`~server.engineering.findings.Finding` objects. What a finding says
 lives in :data:`FINDINGS`, one entry per code; the rules only choose codes
 and fill in numbers. Adding a rule is an entry in :data:`FINDINGS`, a
