@@ -42,6 +42,7 @@ def include_routers(app: FastAPI) -> None:
     from server.catalogue import api as catalogue_api
     from server.quotes import api as quotes_api
     from server.sites import api as sites_api
+    from server.workorders import api as workorders_api
 
     app.include_router(accounts_api.router)
     app.include_router(accounts_pages.router)
@@ -49,6 +50,7 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(catalogue_api.router)
     app.include_router(calc_api.router)
     app.include_router(quotes_api.router)
+    app.include_router(workorders_api.router)
 
 
 def _field_named_in(message: str) -> str | None:
