@@ -227,7 +227,7 @@ def run_demo(args: argparse.Namespace, settings: Settings) -> int:
     from server import demo
 
     with _session(settings) as session:
-        _require_migrated(session)
+        _require_migrated(session, settings.database_url)
         if not demo.database_is_empty(session=session):
             if args.if_empty:
                 print("The database already holds data; the demo scenario was left as it is.")
@@ -252,11 +252,21 @@ def run_demo(args: argparse.Namespace, settings: Settings) -> int:
     return EXIT_OK
 
 
-def _require_migrated(session: Session) -> None:
-    from sqlalchemy import inspect
+def _require_migrated(session: Session, database_url: str) -> None:
+    """Refuse a database whose schema is not the one this code needs."""
+    from alembic.runtime.migration import MigrationContext
+    from alembic.script import ScriptDirectory
 
-    if not inspect(session.connection()).has_table("organisations"):
-        raise Refusal("the database has no tables yet: run `python -m server migrate` first.")
+    from server.migrate import alembic_config
+
+    current = set(MigrationContext.configure(session.connection()).get_current_heads())
+    needed = set(ScriptDirectory.from_config(alembic_config(database_url)).get_heads())
+    if current != needed:
+        at = ", ".join(sorted(current)) or "no schema yet"
+        raise Refusal(
+            f"the database is not up to date (at {at}; this version needs "
+            f"{', '.join(sorted(needed))}): run `python -m server migrate` first."
+        )
 
 
 def _sign_in_text(sign_in: DemoSignIn, settings: Settings) -> str:
@@ -278,7 +288,7 @@ def run_create_user(args: argparse.Namespace, settings: Settings) -> int:
 
     password = _read_password()
     with _session(settings) as session:
-        _require_migrated(session)
+        _require_migrated(session, settings.database_url)
         org = accounts.get_or_create_org(session=session, name=args.org.strip())
         try:
             user = accounts.create_user(
@@ -389,4 +399,9 @@ def _size_text(size_bytes: int) -> str:
 
 
 if __name__ == "__main__":
-    sys.exit(main())
+    try:
+        sys.exit(main())
+    except BrokenPipeError:
+        # The reader went away (`... | head`): stop quietly, as shell tools do.
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        sys.exit(EXIT_FAILED)

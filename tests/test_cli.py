@@ -23,7 +23,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import MetaData, create_engine, func, select
 from sqlalchemy.orm import Session
 
-from server import demo
+from server import demo, migrate
 from server.accounts import service as accounts
 from server.accounts.models import Organisation, Role
 from server.app import create_app
@@ -227,10 +227,17 @@ def test_demo_force_reloads_the_demo_firm_only(
         )
 
 
-def test_demo_on_an_unmigrated_database_says_to_migrate(tmp_path: Path) -> None:
-    run = run_cli("demo", database_url=sqlite_url(tmp_path / "empty.sqlite3"), cwd=tmp_path)
+@pytest.mark.parametrize("schema", ["none", "first revision"])
+def test_demo_on_a_database_behind_the_code_says_to_migrate(tmp_path: Path, schema: str) -> None:
+    url = sqlite_url(tmp_path / "old.sqlite3")
+    if schema == "first revision":
+        scripts = ScriptDirectory.from_config(alembic_config(url))
+        first = list(scripts.walk_revisions())[-1].revision
+        assert first not in scripts.get_heads(), "needs a second migration to be meaningful"
+        migrate.upgrade(url, first)
+    run = run_cli("demo", database_url=url, cwd=tmp_path)
     assert run.code == 2
-    assert "migrate" in run.err
+    assert "not up to date" in run.err and "python -m server migrate" in run.err
 
 
 def test_create_user_reads_the_password_from_standard_input(

@@ -24,7 +24,7 @@ from server.maintenance.models import TestRecord
 from server.proposals.models import Proposal
 from server.sites.models import Area, Building, Fixture
 from server.sites.schemas import AreaCreate, BuildingCreate, FixtureCreate
-from tests.conftest import PASSWORD, Directory
+from tests.conftest import PASSWORD, Directory, both_engines
 
 TODAY = date(2026, 12, 1)
 
@@ -71,6 +71,7 @@ def test_demo_holds_about_forty_fixtures_in_every_kind_of_area(loaded: Session) 
     )
 
 
+@both_engines
 def test_every_demo_record_passes_the_apis_create_schema(loaded: Session) -> None:
     """The demo never holds data the API itself would refuse."""
     for schema, model in (
@@ -186,6 +187,7 @@ def test_demo_proposals_are_the_planners_suggestions_for_one_area(loaded: Sessio
     assert led.id not in {p.fixture_id for p in proposals}  # no fluorescent module suits it
 
 
+@both_engines
 def test_delete_demo_removes_the_demo_firm_only(session: Session, directory: Directory) -> None:
     demo.load_demo(session=session, today=TODAY)
     session.flush()
