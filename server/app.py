@@ -40,17 +40,27 @@ def include_routers(app: FastAPI) -> None:
     from server.accounts import pages as accounts_pages
     from server.calc import api as calc_api
     from server.catalogue import api as catalogue_api
+    from server.catalogue import pages as catalogue_pages
+    from server.maintenance import api as maintenance_api
+    from server.proposals import api as proposals_api
+    from server.proposals import pages as proposals_pages
     from server.quotes import api as quotes_api
     from server.sites import api as sites_api
+    from server.sites import pages as sites_pages
     from server.workorders import api as workorders_api
 
     app.include_router(accounts_api.router)
     app.include_router(accounts_pages.router)
     app.include_router(sites_api.router)
     app.include_router(catalogue_api.router)
+    app.include_router(proposals_api.router)
+    app.include_router(sites_pages.router)
+    app.include_router(proposals_pages.router)
+    app.include_router(catalogue_pages.router)
     app.include_router(calc_api.router)
     app.include_router(quotes_api.router)
     app.include_router(workorders_api.router)
+    app.include_router(maintenance_api.router)
 
 
 def _field_named_in(message: str) -> str | None:
