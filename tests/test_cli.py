@@ -44,13 +44,18 @@ class Run:
 
 
 def run_cli(
-    *args: str, database_url: str, cwd: Path, stdin: str | None = None, timeout_s: float = 60
+    *args: str,
+    database_url: str,
+    cwd: Path,
+    stdin: str | None = None,
+    timeout_s: float = 60,
+    settings: dict[str, str] | None = None,
 ) -> Run:
+    """Run ``python -m server ARGS``; ``settings`` replaces SECRET_KEY and MODE."""
     env = {
-        **os.environ,
+        **{k: v for k, v in os.environ.items() if k not in {"SECRET_KEY", "MODE"}},
         "DATABASE_URL": database_url,
-        "SECRET_KEY": SECRET,
-        "MODE": "test",
+        **(settings if settings is not None else {"SECRET_KEY": SECRET, "MODE": "test"}),
     }
     done = subprocess.run(
         [sys.executable, "-m", "server", *args],
@@ -407,3 +412,18 @@ def test_serve_help_names_its_options(tmp_path: Path) -> None:
     for option in ("--host", "--port", "--workers"):
         assert option in run.out
     assert not (tmp_path / "x.sqlite3").exists()  # help touches no database
+
+
+def test_serve_refuses_production_mode_without_a_secret_key(tmp_path: Path) -> None:
+    run = run_cli(
+        "serve",
+        "--port",
+        "1",
+        database_url=sqlite_url(tmp_path / "x.sqlite3"),
+        cwd=tmp_path,
+        settings={"MODE": "production"},
+        timeout_s=30,
+    )
+    assert run.code == 2
+    assert "SECRET_KEY must be set in production mode" in run.err
+    assert "Serving" not in run.out
