@@ -23,6 +23,6 @@ def route_table(app: FastAPI) -> list[RouteEntry]:
         routes = router.routes if router is not None else [route]
         for inner in routes:
             if isinstance(inner, APIRoute):
-                for method in sorted(inner.methods - {"HEAD"}):
+                for method in sorted((inner.methods or set()) - {"HEAD"}):
                     entries.append(RouteEntry(method, inner.path, inner.name))
     return entries

@@ -82,7 +82,8 @@ def create_idempotent(
                     f"({', '.join(different)}); this is not a retry of the same create.",
                 )
             return existing, False
-    record = model(org_id=org_id, **values)
+    record = model(**values)
+    record.org_id = org_id
     if record_id is not None:
         record.id = record_id
     session.add(record)
