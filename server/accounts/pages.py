@@ -9,9 +9,12 @@ from fastapi import APIRouter, Form, Request, status
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
 from server.accounts import service
+from server.accounts.models import Role, role_at_least
 from server.accounts.ratelimit import check_signin_allowed, record_signin_failure
 from server.accounts.security import SESSION_COOKIE, csrf_matches
 from server.deps import CSRF_FIELD, CurrentUser, SessionDep, SettingsDep, SignerDep
+from server.proposals import service as proposals
+from server.sites import service as sites
 from server.templating import render
 
 router = APIRouter(include_in_schema=False)
@@ -109,5 +112,41 @@ def signout(_: CurrentUser) -> Response:
 
 
 @router.get("/", response_class=HTMLResponse)
-def home(request: Request, user: CurrentUser) -> HTMLResponse:
-    return render(request, "home.html", {"user": user})
+def home(request: Request, session: SessionDep, user: CurrentUser) -> HTMLResponse:
+    """What this person has to do next, by role."""
+    role = user.role_enum
+    show = {
+        "show_survey": role in (Role.SURVEYOR, Role.ESTIMATOR, Role.ADMIN),
+        "show_queue": role_at_least(role, Role.ESTIMATOR),
+        "show_quotes": role_at_least(role, Role.SUPERVISOR),
+    }
+    context: dict[str, object] = {"user": user, "survey": [], "queue": [], "quotes": [], **show}
+    if show["show_survey"]:
+        in_progress = sites.areas_in_progress(session=session, org_id=user.org_id)
+        buildings = sites.buildings_by_id(
+            session=session, org_id=user.org_id, ids={item.area.building_id for item in in_progress}
+        )
+        context["survey"] = [
+            {
+                "area": item.area,
+                "building": buildings[item.area.building_id],
+                "fixtures": item.fixture_count,
+            }
+            for item in in_progress
+        ]
+    if show["show_queue"]:
+        context["queue"] = proposals.estimator_queue(session=session, org_id=user.org_id)
+    if show["show_quotes"]:
+        quotes = proposals.quotes_awaiting_approval(session=session, org_id=user.org_id)
+        names = sites.buildings_by_id(
+            session=session, org_id=user.org_id, ids={quote.building_id for quote in quotes}
+        )
+        context["quotes"] = [
+            {
+                "quote": quote,
+                "building": names.get(quote.building_id),
+                "sent_on": f"{quote.state_changed_at:%d %b %Y}" if quote.state_changed_at else "",
+            }
+            for quote in quotes
+        ]
+    return render(request, "home.html", context)
