@@ -1,0 +1,1 @@
+"""Escape routes: emergency illuminance along a route and the conversion planner."""
