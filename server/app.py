@@ -41,6 +41,7 @@ def include_routers(app: FastAPI) -> None:
     from server.calc import api as calc_api
     from server.catalogue import api as catalogue_api
     from server.catalogue import pages as catalogue_pages
+    from server.escape import api as escape_api
     from server.maintenance import api as maintenance_api
     from server.proposals import api as proposals_api
     from server.proposals import pages as proposals_pages
@@ -58,6 +59,7 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(proposals_pages.router)
     app.include_router(catalogue_pages.router)
     app.include_router(calc_api.router)
+    app.include_router(escape_api.router)
     app.include_router(quotes_api.router)
     app.include_router(workorders_api.router)
     app.include_router(maintenance_api.router)
