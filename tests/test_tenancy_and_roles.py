@@ -16,7 +16,9 @@ import pytest
 from fastapi.testclient import TestClient
 
 from server.accounts.models import ROLE_ORDER, Role
+from server.db import make_engine, make_session_factory
 from server.routing import route_table
+from server.sites.models import Fixture, FixturePhoto
 
 PUBLIC = "public"  # no sign-in needed
 ANY = "any"  # any signed-in user
@@ -59,7 +61,109 @@ for _kind in ("ballast-types", "modules", "packs"):
 for _calculator in ("runtime", "recharge", "pack-health", "check"):
     ROUTE_RULES[("POST", f"/api/v1/calc/{_calculator}")] = ANY
 
-# Which kind of record the first id in a path names, by the segment before it.
+for _calculator in ("route-illuminance", "route-plan"):
+    ROUTE_RULES[("POST", f"/api/v1/calc/{_calculator}")] = ANY
+
+_PROPOSAL = "/api/v1/fixtures/{fixture_id}/proposal"
+ROUTE_RULES.update(
+    {
+        ("GET", _PROPOSAL): S,
+        ("PUT", _PROPOSAL): E,
+        ("POST", _PROPOSAL + "/suggest"): E,
+        ("POST", _PROPOSAL + "/accept"): E,
+        ("POST", _PROPOSAL + "/unaccept"): E,
+        ("POST", "/api/v1/areas/{area_id}/check"): S,
+        ("GET", "/api/v1/areas/{area_id}/proposals"): S,
+        # quotes and work orders
+        ("POST", "/api/v1/buildings/{building_id}/quotes"): E,
+        ("GET", "/api/v1/quotes"): S,
+        ("GET", "/api/v1/quotes/{quote_id}"): S,
+        ("PATCH", "/api/v1/quotes/{quote_id}"): E,
+        ("POST", "/api/v1/quotes/{quote_id}/lines"): E,
+        ("PATCH", "/api/v1/quotes/{quote_id}/lines/{line_id}"): E,
+        ("DELETE", "/api/v1/quotes/{quote_id}/lines/{line_id}"): E,
+        ("POST", "/api/v1/quotes/{quote_id}/overrides"): E,
+        ("POST", "/api/v1/quotes/{quote_id}/rebuild"): E,
+        ("POST", "/api/v1/quotes/{quote_id}/transitions"): E,
+        ("GET", "/api/v1/quotes/{quote_id}/pdf"): S,
+        ("POST", "/api/v1/quotes/{quote_id}/work-order"): V,
+        ("GET", "/api/v1/work-orders"): S,
+        ("GET", "/api/v1/work-orders/{work_order_id}"): S,
+        ("PATCH", "/api/v1/work-orders/{work_order_id}"): V,
+        ("PATCH", "/api/v1/work-orders/{work_order_id}/tasks/{task_id}"): S,
+        ("POST", "/api/v1/work-orders/{work_order_id}/complete"): V,
+        ("GET", "/api/v1/work-orders/{work_order_id}/pdf"): S,
+        # maintenance
+        ("POST", "/api/v1/fixtures/{fixture_id}/tests"): S,
+        ("GET", "/api/v1/fixtures/{fixture_id}/tests"): ANY,
+        ("GET", "/api/v1/fixtures/{fixture_id}/schedule"): ANY,
+        ("GET", "/api/v1/fixtures/{fixture_id}/condition"): ANY,
+        ("GET", "/api/v1/buildings/{building_id}/due"): ANY,
+        ("GET", "/api/v1/maintenance/due"): ANY,
+        ("GET", "/api/v1/buildings/{building_id}/replacements"): ANY,
+        ("GET", "/api/v1/buildings/{building_id}/calendar-link"): V,
+        ("POST", "/api/v1/buildings/{building_id}/calendar-link"): V,
+        ("DELETE", "/api/v1/buildings/{building_id}/calendar-link"): V,
+        ("GET", "/calendar/{token}.ics"): PUBLIC,
+        ("GET", "/api/v1/buildings/{building_id}/logbook/{year}/pdf"): ANY,
+        ("GET", "/api/v1/buildings/{building_id}/tests.csv"): ANY,
+        ("POST", "/api/v1/buildings/{building_id}/tests/import"): S,
+        # survey pages
+        ("GET", "/buildings"): S,
+        ("GET", "/buildings/new"): S,
+        ("POST", "/buildings/new"): S,
+        ("GET", "/buildings/{building_id}"): S,
+        ("GET", "/buildings/{building_id}/edit"): S,
+        ("POST", "/buildings/{building_id}/edit"): S,
+        ("GET", "/buildings/{building_id}/areas/new"): S,
+        ("POST", "/buildings/{building_id}/areas/new"): S,
+        ("GET", "/areas/{area_id}"): S,
+        ("GET", "/areas/{area_id}/edit"): S,
+        ("POST", "/areas/{area_id}/edit"): S,
+        ("POST", "/areas/{area_id}/fixtures/copies"): S,
+        ("GET", "/areas/{area_id}/fixtures/new"): S,
+        ("POST", "/areas/{area_id}/fixtures/new"): S,
+        ("POST", "/areas/{area_id}/findings"): S,
+        ("GET", "/fixtures/{fixture_id}"): S,
+        ("POST", "/fixtures/{fixture_id}"): S,
+        ("POST", "/fixtures/{fixture_id}/delete"): S,
+        ("POST", "/fixtures/{fixture_id}/photos"): S,
+        ("GET", "/photos/{photo_id}"): S,
+        # proposal pages
+        ("GET", "/areas/{area_id}/proposals"): S,
+        ("POST", "/areas/{area_id}/proposals/suggest"): E,
+        ("POST", "/areas/{area_id}/proposals/recheck"): E,
+        ("GET", "/fixtures/{fixture_id}/proposal"): S,
+        ("POST", "/fixtures/{fixture_id}/proposal"): E,
+        ("POST", "/fixtures/{fixture_id}/proposal/suggest"): E,
+        ("POST", "/fixtures/{fixture_id}/proposal/accept"): E,
+        ("POST", "/fixtures/{fixture_id}/proposal/unaccept"): E,
+        ("POST", "/fixtures/{fixture_id}/proposal/recheck"): E,
+        # catalogue pages
+        ("GET", "/catalogue"): S,
+        # maintenance pages
+        ("GET", "/maintenance"): ANY,
+        ("GET", "/maintenance/buildings/{building_id}"): ANY,
+        ("POST", "/maintenance/buildings/{building_id}/calendar-link"): V,
+        ("POST", "/maintenance/buildings/{building_id}/calendar-link/revoke"): V,
+        ("GET", "/maintenance/buildings/{building_id}/walk"): ANY,
+        ("POST", "/maintenance/buildings/{building_id}/walk"): S,
+        ("GET", "/maintenance/fixtures/{fixture_id}/record"): ANY,
+        ("POST", "/maintenance/fixtures/{fixture_id}/record"): S,
+        ("GET", "/maintenance/fixtures/{fixture_id}"): ANY,
+        ("GET", "/maintenance/buildings/{building_id}/import"): S,
+        ("POST", "/maintenance/buildings/{building_id}/import"): S,
+    }
+)
+for _kind in ("ballast-types", "modules", "packs"):
+    ROUTE_RULES[("GET", f"/catalogue/{_kind}")] = S
+    ROUTE_RULES[("GET", f"/catalogue/{_kind}/new")] = E
+    ROUTE_RULES[("POST", f"/catalogue/{_kind}/new")] = E
+    ROUTE_RULES[("GET", f"/catalogue/{_kind}/{{record_id}}")] = E
+    ROUTE_RULES[("POST", f"/catalogue/{_kind}/{{record_id}}")] = E
+    ROUTE_RULES[("POST", f"/catalogue/{_kind}/{{record_id}}/delete")] = E
+
+# Which kind of record an id in a path names, by the segment before it.
 ID_KINDS = {
     "buildings": "building",
     "areas": "area",
@@ -67,27 +171,78 @@ ID_KINDS = {
     "ballast-types": "ballast_type",
     "modules": "module",
     "packs": "pack",
+    "quotes": "quote",
+    "lines": "quote_line",
+    "work-orders": "work_order",
+    "tasks": "task",
+    "photos": "photo",
+    "logbook": "year",
 }
 
-SAMPLE_BODIES: dict[str, dict[str, Any]] = {
-    "building": {"name": "Sample block"},
-    "area": {"name": "Sample corridor", "kind": "escape-route"},
-    "fixture": {
-        "tag": "S-01",
-        "lamp_type": "T8",
-        "lamp_w": 36,
-        "ballast": "electronic-instant-start",
+MODULE = {
+    "name": "Sample module",
+    "battery_w": 7,
+    "chemistry": "NiCd",
+    "cells": 4,
+    "charge_a": 0.17,
+    "lamp_types": ["T8"],
+    "lamp_w_min": 18,
+    "lamp_w_max": 58,
+    "ballasts": ["electronic-instant-start"],
+}
+FIXTURE = {"tag": "S-01", "lamp_type": "T8", "lamp_w": 36, "ballast": "electronic-instant-start"}
+
+# A valid body for each route that reads one, so a 404 can only come from scoping.
+# The ids inside point at firm A's own records or at nothing; what matters is the path.
+SAMPLE_BODIES: dict[tuple[str, str], dict[str, Any] | str] = {
+    ("POST", "/api/v1/buildings/{building_id}/tests/import"): (
+        "fixture_tag,kind,tested_on,tested_by,result\nS-01,function,2026-11-02,A. Tester,pass\n"
+    ),
+    ("POST", "/api/v1/buildings/{parent_id}/areas"): {"name": "Sample corridor"},
+    ("POST", "/api/v1/areas/{parent_id}/fixtures"): FIXTURE,
+    ("PUT", _PROPOSAL): {"module_id": "m", "pack_id": "p"},
+    ("POST", _PROPOSAL + "/suggest"): {},
+    ("POST", _PROPOSAL + "/accept"): {"version": 1},
+    ("POST", _PROPOSAL + "/unaccept"): {"version": 1},
+    ("POST", "/api/v1/areas/{area_id}/check"): {
+        "fixture": FIXTURE,
+        "module_id": "m",
+        "pack_id": "p",
+    },
+    ("POST", "/api/v1/buildings/{building_id}/quotes"): {},
+    ("POST", "/api/v1/quotes/{quote_id}/lines"): {
+        "version": 1,
+        "description": "Sundries",
+        "quantity": 1,
+        "unit_price": 1,
+    },
+    ("POST", "/api/v1/quotes/{quote_id}/overrides"): {
+        "version": 1,
+        "fixture_id": "f",
+        "reason": "Client accepts the shortfall in writing",
+    },
+    ("POST", "/api/v1/quotes/{quote_id}/rebuild"): {"version": 1},
+    ("POST", "/api/v1/quotes/{quote_id}/transitions"): {"to": "sent"},
+    ("POST", "/api/v1/quotes/{quote_id}/work-order"): {},
+    ("PATCH", "/api/v1/work-orders/{work_order_id}/tasks/{task_id}"): {
+        "version": 1,
+        "status": "done",
+    },
+    ("POST", "/api/v1/work-orders/{work_order_id}/complete"): {},
+    ("POST", "/api/v1/fixtures/{fixture_id}/tests"): {
+        "kind": "function",
+        "tested_on": "2026-11-02",
+        "tested_by": "A. Tester",
+        "result": "pass",
     },
 }
 
 
-def _body_for(method: str, path: str) -> dict[str, Any] | None:
+def _body_for(method: str, path: str) -> dict[str, Any] | str | None:
+    if (method, path) in SAMPLE_BODIES:
+        return SAMPLE_BODIES[(method, path)]
     if method == "PATCH":
         return {"version": 1}
-    if method == "POST" and path.endswith("/areas"):
-        return SAMPLE_BODIES["area"]
-    if method == "POST" and path.endswith("/fixtures"):
-        return SAMPLE_BODIES["fixture"]
     return None
 
 
@@ -108,9 +263,13 @@ def _below(role: Role) -> Role | None:
     return ROLE_ORDER[index - 1] if index else None
 
 
-def _call(client: TestClient, method: str, path: str, body: dict[str, Any] | None) -> Any:
+def _call(client: TestClient, method: str, path: str, body: dict[str, Any] | str | None) -> Any:
     if body is None:
         return client.request(method, path, follow_redirects=False)
+    if isinstance(body, str):
+        return client.request(
+            method, path, content=body, headers={"Content-Type": "text/csv"}, follow_redirects=False
+        )
     return client.request(method, path, json=body, follow_redirects=False)
 
 
@@ -127,39 +286,73 @@ def _fill(path: str, ids: dict[str, str]) -> str:
 
 
 @pytest.fixture
-def firm_b_records(client_as: Callable[..., TestClient]) -> dict[str, str]:
-    """One record of every kind, owned by firm B."""
+def firm_b_records(client_as: Callable[..., TestClient], database_url: str) -> dict[str, str]:
+    """One record of every kind, owned by firm B, down to a work order's task."""
     estimator = client_as("estimator", org="B")
-    ids: dict[str, str] = {}
-    ids["building"] = estimator.post("/api/v1/buildings", json={"name": "B block"}).json()["id"]
-    ids["area"] = estimator.post(
-        f"/api/v1/buildings/{ids['building']}/areas", json=SAMPLE_BODIES["area"]
-    ).json()["id"]
-    ids["fixture"] = estimator.post(
-        f"/api/v1/areas/{ids['area']}/fixtures", json=SAMPLE_BODIES["fixture"]
-    ).json()["id"]
-    ids["ballast_type"] = estimator.post(
-        "/api/v1/catalogue/ballast-types",
-        json={"name": "B gear", "technology": "electronic-instant-start", "lamp_type": "T8"},
-    ).json()["id"]
-    ids["module"] = estimator.post(
-        "/api/v1/catalogue/modules",
-        json={
-            "name": "B module",
-            "battery_w": 7,
-            "chemistry": "NiCd",
-            "cells": 4,
-            "charge_a": 0.17,
-            "lamp_types": ["T8"],
-            "lamp_w_min": 18,
-            "lamp_w_max": 58,
-            "ballasts": ["electronic-instant-start"],
-        },
-    ).json()["id"]
-    ids["pack"] = estimator.post(
-        "/api/v1/catalogue/packs",
-        json={"name": "B pack", "chemistry": "NiCd", "cells": 4, "capacity_ah": 4.0},
-    ).json()["id"]
+    supervisor = client_as("supervisor", org="B")
+    ids: dict[str, str] = {"year": "2026"}
+
+    def made(answer: Any) -> dict[str, Any]:
+        assert answer.status_code in (200, 201), answer.text
+        return dict(answer.json())
+
+    ids["building"] = made(estimator.post("/api/v1/buildings", json={"name": "B block"}))["id"]
+    ids["area"] = made(
+        estimator.post(f"/api/v1/buildings/{ids['building']}/areas", json={"name": "B corridor"})
+    )["id"]
+    ids["fixture"] = made(estimator.post(f"/api/v1/areas/{ids['area']}/fixtures", json=FIXTURE))[
+        "id"
+    ]
+    ids["ballast_type"] = made(
+        estimator.post(
+            "/api/v1/catalogue/ballast-types",
+            json={"name": "B gear", "technology": "electronic-instant-start", "lamp_type": "T8"},
+        )
+    )["id"]
+    ids["module"] = made(estimator.post("/api/v1/catalogue/modules", json=MODULE))["id"]
+    ids["pack"] = made(
+        estimator.post(
+            "/api/v1/catalogue/packs",
+            json={"name": "B pack", "chemistry": "NiCd", "cells": 4, "capacity_ah": 4.0},
+        )
+    )["id"]
+    proposal = made(
+        estimator.put(
+            f"/api/v1/fixtures/{ids['fixture']}/proposal",
+            json={"module_id": ids["module"], "pack_id": ids["pack"]},
+        )
+    )
+    made(
+        estimator.post(
+            f"/api/v1/fixtures/{ids['fixture']}/proposal/accept",
+            json={"version": proposal["version"], "override_reason": "tenancy test"},
+        )
+    )
+    quote = made(
+        estimator.post(
+            f"/api/v1/buildings/{ids['building']}/quotes",
+            json={"overrides": [{"fixture_id": ids["fixture"], "reason": "tenancy test"}]},
+        )
+    )
+    ids["quote"] = quote["id"]
+    ids["quote_line"] = quote["lines"][0]["id"]
+    made(estimator.post(f"/api/v1/quotes/{ids['quote']}/transitions", json={"to": "sent"}))
+    made(supervisor.post(f"/api/v1/quotes/{ids['quote']}/transitions", json={"to": "accepted"}))
+    order = made(supervisor.post(f"/api/v1/quotes/{ids['quote']}/work-order", json={}))
+    ids["work_order"] = order["id"]
+    ids["task"] = order["tasks"][0]["id"]
+
+    engine = make_engine(database_url)
+    with make_session_factory(engine)() as session:
+        fixture = session.get(Fixture, ids["fixture"])
+        assert fixture is not None
+        photo = FixturePhoto(
+            org_id=fixture.org_id, fixture_id=fixture.id, content_type="image/png", data=b"x"
+        )
+        session.add(photo)
+        session.commit()
+        ids["photo"] = photo.id
+    engine.dispose()
     return ids
 
 
@@ -167,10 +360,10 @@ def test_another_firms_records_answer_404(
     app: Any, client_as: Callable[..., TestClient], firm_b_records: dict[str, str]
 ) -> None:
     admin_a = client_as("admin", org="A")
-    missing = {kind: str(uuid.uuid4()) for kind in firm_b_records}
+    missing = {kind: str(uuid.uuid4()) for kind in firm_b_records} | {"year": "2026"}
     checked = 0
     for method, path in sorted(_our_routes(app)):
-        if "{" not in path:
+        if "{" not in path or ROUTE_RULES[(method, path)] == PUBLIC:
             continue
         body = _body_for(method, path)
         theirs = _call(admin_a, method, _fill(path, firm_b_records), body)
@@ -179,7 +372,7 @@ def test_another_firms_records_answer_404(
         assert nobodys.status_code == 404, (method, path, nobodys.status_code)
         assert theirs.json() == nobodys.json(), (method, path)
         checked += 1
-    assert checked >= 15
+    assert checked >= 60
 
 
 def test_lists_show_only_the_callers_firm(
@@ -204,7 +397,7 @@ def test_roles_below_the_rule_answer_403(
         assert answer.status_code == 403, (method, path, lower, answer.status_code, answer.text)
         assert rule.value in answer.json()["detail"]
         checked += 1
-    assert checked >= 10
+    assert checked >= 40
 
 
 def test_signed_out_requests_are_refused(app: Any, client: TestClient) -> None:
