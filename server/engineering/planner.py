@@ -74,13 +74,14 @@ INITIAL_ROW_SPACING_M = 1.0
 
 # Shares of the time limit: the whole problem first; what is left after the
 # rolling horizon goes to a linear-relaxation bound when the solver gave none.
-EXACT_TIME_SHARE = 0.5
+EXACT_TIME_SHARE = 0.4
 BOUND_TIME_SHARE = 0.1
 # Rolling horizon: stretches solved one at a time, with candidates this far
 # beyond them. Our own tuning: a few mounting heights, beyond which a
 # luminaire adds little light.
 WINDOW_CORE_M = 20.0
 WINDOW_MARGIN_M = 8.0
+WINDOW_REL_GAP = 1e-2  # each stretch is a heuristic step: near-optimal is enough
 
 PLANNER_SOURCE = "project method: 0/1 integer program solved by scipy.optimize.milp (HiGHS)"
 
@@ -162,8 +163,29 @@ class Plan:
 
 
 @dataclass(frozen=True, eq=False)
-class _Requirements:
-    """The constraint rows: illuminance per candidate over the level needed."""
+class Requirements:
+    """The planner's constraints: each candidate's share of each level needed.
+
+    Attributes
+    ----------
+    rows : ndarray
+        Shape (requirements, candidates): illuminance with the maintenance
+        factor, divided by the level the row needs; a set meets the profile
+        when every row sums to at least 1 over its candidates. [-]
+    need_lux : ndarray
+        The level each row needs. [lx]
+    s_m : ndarray
+        Position of each row along the route; nan for an average. [m]
+    anchor : ndarray of int
+        The centre-line row at the same sample; -1 for an average.
+    group, group_names
+        Which requirement each row belongs to, and its name in words.
+    weights_m : ndarray
+        Trapezoid weights of the centre-line rows, which come first. [m]
+    averages : tuple of (float, ndarray)
+        Each average asked for: its level [lx] and each candidate's factor on
+        the centre-line light [-].
+    """
 
     rows: FloatArray  # (requirements, candidates), maintenance factor applied, / need
     need_lux: FloatArray
@@ -176,9 +198,29 @@ class _Requirements:
     averages: tuple[tuple[float, FloatArray], ...]
 
 
-def _requirements(
+def requirement_rows(
     matrices: RouteMatrices, profile: Profile, maintenance_factor: float
-) -> _Requirements:
+) -> Requirements:
+    """The profile's levels as rows linear in the 0/1 choice of each candidate.
+
+    Parameters
+    ----------
+    matrices : RouteMatrices
+        Each candidate's light at the route's samples.
+    profile : Profile
+        Minimum on the centre line (every profile), central band (EU escape
+        routes), average and end-of-duration levels (US egress).
+    maintenance_factor : float
+        Multiplies every illuminance. [-]
+
+    Returns
+    -------
+    Requirements
+
+    References
+    ----------
+    NFPA 101 §7.9.2.1; EN 1838:2013 §4.2.
+    """
     samples = matrices.samples
     line = "path" if profile.evaluation is Evaluation.PATH else "centre line"
     centre_index = np.arange(samples.s_m.size)
@@ -223,7 +265,7 @@ def _requirements(
                 no_anchor,
             )
         )
-    return _Requirements(
+    return Requirements(
         rows=np.vstack([maintenance_factor * lux / need for _, lux, need, _, _ in blocks]),
         need_lux=np.concatenate([np.full(lux.shape[0], need) for _, lux, need, _, _ in blocks]),
         s_m=np.concatenate([position for _, _, _, position, _ in blocks]),
@@ -366,6 +408,24 @@ class _Solution:
     method: str
 
 
+def _initial_rows(
+    rows: FloatArray,
+    kept_rows: NDArray[np.int_],
+    anchor: NDArray[np.int_],
+    incumbent: BoolArray,
+    initial_stride: int,
+) -> NDArray[np.int_]:
+    """Rows likely to bind: every ``initial_stride``-th sample, the averages, and
+    the darkest points with every candidate and with the incumbent set."""
+    picked = [
+        kept_rows[::initial_stride],
+        kept_rows[anchor[kept_rows] < 0],
+        kept_rows[_local_minima(rows[kept_rows].sum(axis=1))],
+        kept_rows[_local_minima(rows[kept_rows] @ incumbent.astype(float))],
+    ]
+    return np.unique(np.concatenate(picked))
+
+
 def _row_generation(
     rows: FloatArray,
     kept_rows: NDArray[np.int_],
@@ -393,10 +453,7 @@ def _row_generation(
     best: BoolArray | None = None
     best_cost = float(costs @ incumbent)
     bound: float | None = None
-    active = set(kept_rows[::initial_stride].tolist())
-    active |= set(kept_rows[anchor[kept_rows] < 0].tolist())
-    active |= set(kept_rows[_local_minima(rows[kept_rows].sum(axis=1))].tolist())
-    active |= set(kept_rows[_local_minima(rows[kept_rows] @ incumbent.astype(float))].tolist())
+    active = set(_initial_rows(rows, kept_rows, anchor, incumbent, initial_stride).tolist())
     while (remaining_s := deadline - time.monotonic()) > 0:
         selected = np.array(sorted(active))
         cut_rows, cut_levels = _cover_cuts(rows[selected], target[selected])
@@ -434,21 +491,22 @@ def _row_generation(
 
 
 def _windowed_selection(
-    requirements: _Requirements,
+    requirements: Requirements,
     kept_rows: NDArray[np.int_],
     costs: FloatArray,
     target: FloatArray,
     candidate_s_m: FloatArray,
     *,
     deadline: float,
-) -> BoolArray | None:
+) -> BoolArray:
     """Rolling-horizon heuristic: an integer program per stretch of the route.
 
     Stretches of :data:`WINDOW_CORE_M` are solved in turn, each with the
     candidates up to :data:`WINDOW_MARGIN_M` beyond it and the ones already
     chosen; the choices inside the stretch are then fixed. An average the
     profile asks for is asked of every stretch, which is enough for the whole
-    route. A greedy pass completes and prunes the result.
+    route. A greedy pass completes and prunes the result (and covers the
+    stretches left when time runs out).
 
     References
     ----------
@@ -463,8 +521,8 @@ def _windowed_selection(
     off = np.zeros(costs.size, dtype=bool)
     for number, start in enumerate(starts):
         remaining_s = deadline - time.monotonic()
-        if remaining_s <= 0:
-            return None
+        if remaining_s <= 0:  # out of time: the greedy pass completes the rest
+            break
         last = number == starts.size - 1
         end = math.inf if last else start + WINDOW_CORE_M
         core = kept_rows[(s_m[kept_rows] >= start) & (s_m[kept_rows] < end)]
@@ -501,7 +559,7 @@ def _windowed_selection(
             bounds=Bounds(0.0, 1.0),
             options={
                 "time_limit": remaining_s / (starts.size - number),
-                "mip_rel_gap": MIP_REL_GAP,
+                "mip_rel_gap": WINDOW_REL_GAP,
                 "disp": False,
             },
         )
@@ -514,7 +572,7 @@ def _windowed_selection(
 
 
 def _solve(
-    requirements: _Requirements,
+    requirements: Requirements,
     costs: FloatArray,
     target: FloatArray,
     candidate_s_m: FloatArray,
@@ -525,53 +583,67 @@ def _solve(
     """The cheapest set meeting every row, or the best found with a bound.
 
     The whole problem is tried first by row generation for
-    :data:`EXACT_TIME_SHARE` of the time; unless it is proven optimal, the
-    rolling-horizon heuristic then uses the rest, and the cheapest set found
-    (greedy, solver, rolling horizon) is returned with the solver's bound.
+    :data:`EXACT_TIME_SHARE` of the time. Unless that proves an optimum, the
+    rolling-horizon heuristic follows, then the whole problem again with the
+    best cost so far as a cut-off, until :data:`BOUND_TIME_SHARE` of the time
+    is left. The cheapest set found (greedy, solver, rolling horizon) is
+    returned with the best of the solver's bounds.
     """
     started = time.monotonic()
     rows = requirements.rows
     kept_rows = _undominated_rows(rows, target, requirements.anchor)
     greedy = greedy_selection(rows, costs, target)
-    exact, proven, bound = _row_generation(
-        rows,
-        kept_rows,
-        requirements.anchor,
-        costs,
-        target,
-        greedy,
-        deadline=started + EXACT_TIME_SHARE * time_limit_s,
-        initial_stride=initial_stride,
-    )
-    if exact is not None and proven:
-        return _Solution(exact, True, bound, "milp")
     found: list[tuple[BoolArray, str]] = [(greedy, "greedy")]
-    if exact is not None:
-        found.append((exact, "milp"))
+    bounds: list[float] = []
+
+    def whole_problem(deadline: float) -> bool:
+        incumbent = min(found, key=lambda pair: float(costs @ pair[0]))[0]
+        chosen, proven, bound = _row_generation(
+            rows,
+            kept_rows,
+            requirements.anchor,
+            costs,
+            target,
+            incumbent,
+            deadline=deadline,
+            initial_stride=initial_stride,
+        )
+        if bound is not None:
+            bounds.append(bound)
+        if chosen is not None:
+            found.append((chosen, "milp"))
+        return chosen is not None and proven
+
+    if whole_problem(started + EXACT_TIME_SHARE * time_limit_s):
+        return _Solution(found[-1][0], True, max(bounds, default=None), "milp")
+    last_deadline = started + (1.0 - BOUND_TIME_SHARE) * time_limit_s
     windowed = _windowed_selection(
-        requirements,
-        kept_rows,
-        costs,
-        target,
-        candidate_s_m,
-        deadline=started + (1.0 - BOUND_TIME_SHARE) * time_limit_s,
+        requirements, kept_rows, costs, target, candidate_s_m, deadline=last_deadline
     )
-    if windowed is not None:
-        found.append((windowed, "rolling-horizon"))
+    found.append((windowed, "rolling-horizon"))
+    if last_deadline - time.monotonic() > BOUND_TIME_SHARE * time_limit_s and whole_problem(
+        last_deadline
+    ):
+        return _Solution(found[-1][0], True, max(bounds, default=None), "milp")
     chosen, method = min(found, key=lambda pair: float(costs @ pair[0]))
-    if bound is None:
+    if max(bounds, default=0.0) <= 0.0:  # no bound, or only the trivial one
         remaining_s = started + time_limit_s - time.monotonic()
-        bound = _lower_bound(rows[kept_rows], costs, target[kept_rows], max(remaining_s, 0.1))
-    return _Solution(chosen, False, bound, method)
+        some_rows = _initial_rows(rows, kept_rows, requirements.anchor, greedy, initial_stride)
+        relaxed = _lower_bound(rows[some_rows], costs, target[some_rows], max(remaining_s, 0.1))
+        bounds.extend([] if relaxed is None else [relaxed])
+    return _Solution(chosen, False, max(bounds, default=None), method)
 
 
 def _lower_bound(
     rows: FloatArray, costs: FloatArray, target: FloatArray, time_limit_s: float
 ) -> float | None:
+    """Linear relaxation over some rows, tightened by their cover cuts: a lower
+    bound on the cost of any set meeting every row."""
+    cut_rows, cut_levels = _cover_cuts(rows, target)
     relaxation = linprog(
         costs,
-        A_ub=-rows,
-        b_ub=-target,
+        A_ub=-np.vstack([rows, cut_rows]),
+        b_ub=-np.concatenate([target, cut_levels]),
         bounds=(0.0, 1.0),
         method="highs",
         options={"time_limit": time_limit_s},
@@ -652,7 +724,7 @@ def plan_conversions(
     best_result = result_for_selection(
         route, matrices, profile, all_on, maintenance_factor=maintenance_factor
     )
-    requirements = _requirements(matrices, profile, maintenance_factor)
+    requirements = requirement_rows(matrices, profile, maintenance_factor)
     costs = np.array([candidate.cost for candidate in candidates], dtype=float)
     best_share = requirements.rows.sum(axis=1)
     if len(candidates) == 0 or np.min(best_share) < 1.0:
@@ -746,7 +818,7 @@ def _with_planner_findings(result: RouteResult, extra: list[Finding]) -> RouteRe
 def _shortfall_plan(
     candidates: Sequence[Candidate],
     costs: FloatArray,
-    requirements: _Requirements,
+    requirements: Requirements,
     best_share: FloatArray,
     best_result: RouteResult,
 ) -> Plan:
