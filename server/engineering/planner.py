@@ -10,10 +10,12 @@ constraints and the cheapest set is a 0/1 integer program:
     minimise sum_j cost_j x_j   subject to   G x >= 1,   x in {0, 1}^n
 
 with each row of G one requirement divided by its level. It is solved by
-``scipy.optimize.milp`` (HiGHS branch and bound) within a time limit. On a
-time-out or a solver failure a greedy choice (most shortfall covered per unit
-of cost, then redundant fixtures dropped) is used, and the gap to the best
-lower bound known (the solver's, else the linear relaxation's) is stated.
+``scipy.optimize.milp`` (HiGHS branch and bound) by row generation within a
+time limit. When the limit comes before a proof, the cheapest of a greedy
+choice (most shortfall covered per unit of cost, then redundant fixtures
+dropped), the solver's sets and a rolling horizon (stretch by stretch) is
+returned, with the gap to the best lower bound known (the solver's, else a
+linear relaxation's).
 
 The max:min ratio is not optimised: it is checked on the chosen set, and a
 finding says so when it fails.
@@ -22,8 +24,8 @@ References
 ----------
 .. [1] scipy.optimize.milp documentation (HiGHS MIP solver; status codes, time
    limit, mip_rel_gap, mip_dual_bound).
-.. [2] Greedy set-cover heuristic, covering shortfall per unit cost: common
-   practice in operations research.
+.. [2] Greedy set cover, cover inequalities, row generation and rolling
+   horizons: common practice in operations research.
 .. [3] Requirements as in :mod:`server.engineering.routes` (NFPA 101 §7.9.2.1,
    EN 1838:2013 §4.2).
 """
@@ -57,7 +59,7 @@ from server.engineering.routes import (
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
 
-DEFAULT_TIME_LIMIT_S = 5.0  # project default; the 300-candidate bench plans well within it
+DEFAULT_TIME_LIMIT_S = 5.0  # project default: an answer within seconds; see bench/
 # Relative margin added to each requirement inside the solver, so that a
 # solution within HiGHS's primal feasibility tolerance (1e-7, HiGHS options
 # documentation, from memory) still meets the level exactly.

@@ -52,6 +52,7 @@ BoolArray = NDArray[np.bool_]
 DEFAULT_MAINTENANCE_FACTOR = 0.8  # common practice ([4])
 DEFAULT_STEP_M = 0.1  # project default sampling interval along the centre line
 MAX_SAMPLES = 10_000  # our own limit on centre-line points (1 km at 0.1 m), for response time
+MAX_MATRIX_ENTRIES = 6_000_000  # our own limit on points x luminaires (about 50 MB of floats)
 
 # Lateral positions sampled across the central band, as fractions of its half
 # width: both edges and halfway to them (the centre line is sampled anyway).
@@ -389,12 +390,26 @@ def route_matrices(
     -------
     RouteMatrices
 
+    Raises
+    ------
+    InvalidInput
+        ``step_m`` when the points times the luminaires exceed
+        :data:`MAX_MATRIX_ENTRIES`.
+
     References
     ----------
     Inverse-square cosine law (IES definitions); EN 1838:2013 §4.2 (band).
     """
     band_fraction = profile.central_band_fraction if profile.central_band_min_share else None
     samples = sample_route(route, step_m=step_m, band_fraction=band_fraction)
+    points = samples.s_m.size + samples.band_s_m.size
+    if points * len(luminaires) > MAX_MATRIX_ENTRIES:
+        raise InvalidInput(
+            "step_m",
+            f"{points} points for {len(luminaires)} luminaires is more than this calculation "
+            f"takes ({MAX_MATRIX_ENTRIES:,} point-luminaire pairs); use a larger step, or "
+            "split the route into sections",
+        )
     return RouteMatrices(
         samples=samples,
         centre_lx=illuminance_matrix_lx(samples.x_m, samples.y_m, luminaires),

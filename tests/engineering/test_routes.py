@@ -114,6 +114,10 @@ def test_step_and_maintenance_factor_errors() -> None:
     long_route = Route(((0.0, 0.0), (2000.0, 0.0)), 1.0)
     with pytest.raises(InvalidInput, match=f"more than the {MAX_SAMPLES} allowed"):
         evaluate_route(long_route, [], profile, step_m=0.1)
+    many = [Luminaire(float(x), 0.0, 2.5, 300.0) for x in range(300)]
+    # 500 m: 5001 centre-line and 20004 band points, times 300 luminaires
+    with pytest.raises(InvalidInput, match="use a larger step, or split the route"):
+        evaluate_route(Route(((0.0, 0.0), (500.0, 0.0)), 1.0), many, profile)
     for factor in (0.0, 1.5, math.nan):
         with pytest.raises(InvalidInput, match="maintenance_factor"):
             evaluate_route(route, [], profile, maintenance_factor=factor)
