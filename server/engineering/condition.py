@@ -201,9 +201,8 @@ def capacity_estimates(
     Returns
     -------
     list of CapacityEstimate
-        One per test; tests stopped with the lamp lit are lower bounds. A
-        test that ended before the required time is a measurement whatever
-        its flag says, since the lamp went out.
+        One per test; tests stopped with the lamp still lit are lower bounds
+        (an aborted test included, whatever its length).
     """
     f_temp = temperature_capacity_factor(pack.chemistry, ambient_c)
     available_ah = pack.capacity_ah * f_temp
