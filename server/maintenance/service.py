@@ -460,7 +460,9 @@ def record_test(
     values = _values(data, required_min=log.area.required_duration_min)
     record_id = str(data.id) if data.id else None
     if record_id is not None:
-        existing = _existing_retry(session, org_id=org_id, record_id=record_id, values=values)
+        existing = _existing_retry(
+            session, org_id=org_id, record_id=record_id, values={**values, "fixture_id": fixture_id}
+        )
         if existing is not None:
             return record_read(existing, log.superseded_by), False
     check_against_log(session, org_id=org_id, log=log, data=data, on=on)

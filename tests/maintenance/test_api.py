@@ -71,6 +71,8 @@ def test_a_create_sent_twice_makes_one_record(client_as, site: Site) -> None:
     assert first.json()["id"] == again.json()["id"]
     other = surveyor.post(path, json={**body, "result": "fail"})
     assert other.status_code == 409
+    elsewhere = surveyor.post(f"/api/v1/fixtures/{site.fixture_ids[1]}/tests", json=body)
+    assert elsewhere.status_code == 409  # the same id for another fixture is not a retry
     assert surveyor.get(path).json()["total"] == 1
 
 
