@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
-from reportlab.graphics import renderPDF
+from dataclasses import dataclass
+
 from reportlab.graphics.shapes import Drawing
+from reportlab.lib.colors import Color
 from reportlab.lib.units import mm
+from reportlab.lib.utils import simpleSplit
+from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.platypus import (
     CondPageBreak,
     Flowable,
@@ -113,84 +117,177 @@ def _sketches(sheet: WorkOrderSheet, width_pt: float) -> list[Flowable]:
     ]
 
 
-class LinkedQr(Flowable):
-    """A fixture's QR code, also a link to its page for a PDF read on a tablet."""
+# --- fixture rows ---------------------------------------------------------
+#
+# A 1,000-fixture order has 1,000 rows of five wrapped columns. Paragraphs in
+# a Table are wrapped again each time the table splits at a page end, which
+# costs seconds; these rows wrap their plain text once (no markup, so user
+# text prints exactly as typed) and split between rows by their known heights.
 
-    def __init__(self, url: str) -> None:
+COLUMNS_MM = (7, 24, 37, 55, 42, 19)
+HEADER = ("", "Fixture", "Now \u2192 fit", "Wiring notes", "Commissioning", "Open in app")
+PAD_PT = 2.5
+LEADING_PT = 9.2
+TEXT_PT = 7.5
+HEADER_PT = 30.0
+USER_TEXT_LIMIT = 400  # characters of a survey note printed in a row; the app has the rest
+
+
+@dataclass(frozen=True, slots=True)
+class Line:
+    text: str
+    font: str = pdf.FONT_CONDENSED
+    size: float = TEXT_PT
+    color: Color = pdf.INK
+    indent_pt: float = 0.0
+
+
+def wrap_lines(
+    text: str,
+    width_pt: float,
+    *,
+    font: str = pdf.FONT_CONDENSED,
+    size: float = TEXT_PT,
+    color: Color = pdf.INK,
+    bullet: str = "",
+) -> list[Line]:
+    """``text`` wrapped to ``width_pt``; a bullet hangs in front of the first line."""
+    indent = stringWidth(bullet + " ", font, size) if bullet else 0.0
+    lines: list[Line] = []
+    for paragraph in text.splitlines() or [""]:
+        for piece in simpleSplit(paragraph, font, size, width_pt - indent) or [""]:
+            while stringWidth(piece, font, size) > width_pt - indent and len(piece) > 1:
+                cut = len(piece) - 1
+                while cut > 1 and stringWidth(piece[:cut], font, size) > width_pt - indent:
+                    cut -= 1
+                lines.append(Line(piece[:cut], font, size, color, indent))
+                piece = piece[cut:]
+            lines.append(Line(piece, font, size, color, indent))
+    if bullet and lines:
+        lines[0] = Line(f"{bullet} {lines[0].text}", font, size, color, 0.0)
+    return lines
+
+
+def _clip(text: str) -> str:
+    return text if len(text) <= USER_TEXT_LIMIT else text[:USER_TEXT_LIMIT] + "\u2026 (see the app)"
+
+
+@dataclass(slots=True)
+class PreparedRow:
+    columns: list[list[Line]]
+    url: str
+    height_pt: float
+
+
+def prepare_row(row: FixtureRow, widths_pt: list[float]) -> PreparedRow:
+    inner = [width - 2 * PAD_PT for width in widths_pt]
+    muted = pdf.MUTED
+    fixture = wrap_lines(row.tag, inner[1], font=pdf.FONT_CONDENSED_BOLD, size=8)
+    if row.location:
+        fixture += wrap_lines(row.location, inner[1])
+    fixture += wrap_lines(f"Sketch {row.sketch_number}", inner[1], color=muted)
+    now_fit = [Line("Now", pdf.FONT_CONDENSED_BOLD, TEXT_PT, muted)]
+    now_fit += wrap_lines(row.now, inner[2])
+    now_fit += [Line("Fit", pdf.FONT_CONDENSED_BOLD, TEXT_PT, muted)]
+    now_fit += wrap_lines(row.fit, inner[2])
+    notes = [
+        line for note in row.wiring_notes for line in wrap_lines(note, inner[3], bullet="\u2022")
+    ]
+    if row.survey_note:
+        notes += wrap_lines(f"Survey note: {_clip(row.survey_note)}", inner[3], color=muted)
+    checks = [
+        line for check in row.checks for line in wrap_lines(check, inner[4], bullet=pdf.TICK_BOX)
+    ]
+    checks += wrap_lines("Done by ____________ on ________", inner[4])
+    if row.result:
+        checks += wrap_lines(_clip(row.result), inner[4], font=pdf.FONT_CONDENSED_BOLD)
+    columns = [[], fixture, now_fit, notes, checks]
+    text_h = max(len(column) for column in columns) * LEADING_PT
+    return PreparedRow(columns, row.page_url, max(text_h, QR_SIZE_PT) + 2 * PAD_PT + 1)
+
+
+class AreaRows(Flowable):
+    """An area's fixture rows under its title and column heads, which repeat on
+    every page the area runs onto."""
+
+    def __init__(self, title: str, rows: list[PreparedRow], widths_pt: list[float]) -> None:
         super().__init__()
-        self.url = url
+        self.title = title
+        self.rows = rows
+        self.widths_pt = widths_pt
 
     def wrap(self, available_width: float, available_height: float) -> tuple[float, float]:
-        return QR_SIZE_PT, QR_SIZE_PT
+        self.width = sum(self.widths_pt)
+        self.height = HEADER_PT + sum(row.height_pt for row in self.rows)
+        return self.width, self.height
+
+    def split(self, available_width: float, available_height: float) -> list[Flowable]:
+        room = available_height - HEADER_PT
+        taken = 0
+        for row in self.rows:
+            if row.height_pt > room:
+                break
+            room -= row.height_pt
+            taken += 1
+        if taken == 0:
+            return []
+        title = self.title if self.title.endswith("(continued)") else f"{self.title} (continued)"
+        return [
+            AreaRows(self.title, self.rows[:taken], self.widths_pt),
+            AreaRows(title, self.rows[taken:], self.widths_pt),
+        ]
 
     def draw(self) -> None:
-        drawing = Drawing(QR_SIZE_PT, QR_SIZE_PT)
-        drawing.add(
-            sketches.FixtureQr(self.url, barWidth=QR_SIZE_PT, barHeight=QR_SIZE_PT, barBorder=2)
-        )
-        renderPDF.draw(drawing, self.canv, 0, 0)
-        self.canv.linkURL(self.url, (0, 0, QR_SIZE_PT, QR_SIZE_PT), relative=1)
+        canvas = self.canv
+        y = self.height
+        canvas.setFillColor(pdf.INK)
+        canvas.setFont(pdf.FONT_BOLD, 11)
+        canvas.drawString(0, y - 13, self.title)
+        canvas.setFont(pdf.FONT_CONDENSED_BOLD, 8)
+        x = 0.0
+        for heading, width in zip(HEADER, self.widths_pt, strict=True):
+            canvas.drawString(x + PAD_PT, y - 25, heading)
+            x += width
+        canvas.setStrokeColor(pdf.INK)
+        canvas.setLineWidth(0.8)
+        canvas.line(0, y - HEADER_PT + 1, self.width, y - HEADER_PT + 1)
+        y -= HEADER_PT
+        canvas.setStrokeColor(pdf.RULE)
+        canvas.setLineWidth(0.4)
+        for row in self.rows:
+            self._draw_row(row, y)
+            y -= row.height_pt
+            canvas.line(0, y, self.width, y)
+
+    def _draw_row(self, row: PreparedRow, top: float) -> None:
+        canvas = self.canv
+        canvas.setFillColor(pdf.INK)
+        canvas.setFont(pdf.FONT, 13)
+        canvas.drawString(PAD_PT, top - PAD_PT - 11, pdf.TICK_BOX)
+        x = 0.0
+        for column, width in zip(row.columns, self.widths_pt, strict=False):
+            text = canvas.beginText()
+            y = top - PAD_PT - LEADING_PT + 2
+            for line in column:
+                text.setTextOrigin(x + PAD_PT + line.indent_pt, y)
+                text.setFont(line.font, line.size)
+                text.setFillColor(line.color)
+                text.textOut(line.text)
+                y -= LEADING_PT
+            canvas.drawText(text)
+            x += width
+        qr_x = x + PAD_PT
+        qr_y = top - PAD_PT - QR_SIZE_PT
+        widget = sketches.FixtureQr(row.url, barBorder=2)
+        canvas.drawInlineImage(widget.bitmap(), qr_x, qr_y, QR_SIZE_PT, QR_SIZE_PT)
+        canvas.linkURL(row.url, (qr_x, qr_y, qr_x + QR_SIZE_PT, qr_y + QR_SIZE_PT), relative=1)
 
 
-def _bullets(items: list[str]) -> str:
-    return "<br/>".join(f"\u2022 {pdf.escape(item)}" for item in items)
-
-
-def _row(row: FixtureRow) -> list[object]:
-    fixture = (
-        f"<b>{pdf.escape(row.tag)}</b>"
-        + (f"<br/>{pdf.escape(row.location)}" if row.location else "")
-        + f"<br/><font color='#5a6472'>Sketch {row.sketch_number}</font>"
-    )
-    now_fit = (
-        f"<font color='#5a6472'>Now:</font> {pdf.escape(row.now)}"
-        f"<br/><font color='#5a6472'>Fit:</font> {pdf.escape(row.fit)}"
-    )
-    checks = "<br/>".join(f"{pdf.TICK_BOX} {pdf.escape(check)}" for check in row.checks)
-    checks += "<br/>Done by ____________ on ________"
-    if row.result:
-        checks += f"<br/><b>{pdf.escape(row.result)}</b>"
-    return [
-        pdf.para(pdf.TICK_BOX, "tick"),
-        pdf.para(fixture, "cell", markup=True),
-        pdf.para(now_fit, "cell", markup=True),
-        pdf.para(_bullets(row.wiring_notes), "cell", markup=True),
-        pdf.para(checks, "cell", markup=True),
-        LinkedQr(row.page_url),
-    ]
-
-
-COLUMNS_MM = (7, 24, 37, 55, 40, 19)
-HEADER = ("", "Fixture", "Now \u2192 fit", "Wiring notes", "Commissioning", "Open in app")
-
-
-def _area_table(block: AreaBlock, width_pt: float) -> Table:
-    """The area's fixtures; its title and the column heads repeat on every page."""
+def _area(block: AreaBlock, width_pt: float) -> AreaRows:
     widths = [w * mm for w in COLUMNS_MM]
     widths[3] += width_pt - sum(widths)
     title = f"{block.title} \u00b7 {block.required_duration_min:.0f} min on battery"
-    data: list[list[object]] = [
-        [pdf.para(title, "heading"), "", "", "", "", ""],
-        [pdf.para(text, "cell_bold") for text in HEADER],
-    ]
-    data += [_row(row) for row in block.rows]
-    table = Table(data, colWidths=widths, repeatRows=2, hAlign="LEFT")
-    table.setStyle(
-        TableStyle(
-            [
-                ("SPAN", (0, 0), (-1, 0)),
-                ("VALIGN", (0, 0), (-1, -1), "TOP"),
-                ("LEFTPADDING", (0, 0), (-1, 0), 0),
-                ("LINEBELOW", (0, 1), (-1, 1), 0.8, pdf.INK),
-                ("LINEBELOW", (0, 2), (-1, -1), 0.4, pdf.RULE),
-                ("LEFTPADDING", (0, 1), (-1, -1), 2),
-                ("RIGHTPADDING", (0, 0), (-1, -1), 2),
-                ("TOPPADDING", (0, 1), (-1, -1), 2.5),
-                ("BOTTOMPADDING", (0, 1), (-1, -1), 3),
-            ]
-        )
-    )
-    return table
+    return AreaRows(title, [prepare_row(row, widths) for row in block.rows], widths)
 
 
 def _sign_off() -> Table:
@@ -209,43 +306,84 @@ def _sign_off() -> Table:
     return table
 
 
-def _label(label: PackLabel) -> list[Flowable]:
-    installed = label.installed_on.isoformat() + (" (planned)" if label.planned else "")
-    return [
-        pdf.para("<b>EMERGENCY PACK</b>", "cell", markup=True),
-        pdf.para(f"Fixture <b>{pdf.escape(label.tag)}</b>", "cell", markup=True),
-        pdf.para(label.pack, "small"),
-        pdf.para(f"Installed on: {installed}", "cell"),
-        pdf.para(
-            f"<b>Replace by: {label.replace_by.isoformat()}</b> ({label.life_years:.1f} years)",
-            "cell",
-            markup=True,
-        ),
-    ]
+# --- pack labels ----------------------------------------------------------
+
+
+class LabelSheet(Flowable):
+    """Pack labels in a grid with dashed cut lines, split between label rows."""
+
+    def __init__(self, labels: list[PackLabel], per_row: int) -> None:
+        super().__init__()
+        self.labels = labels
+        self.per_row = per_row
+
+    @property
+    def rows(self) -> int:
+        return -(-len(self.labels) // self.per_row)
+
+    def wrap(self, available_width: float, available_height: float) -> tuple[float, float]:
+        self.width = self.per_row * LABEL_WIDTH_PT
+        self.height = self.rows * LABEL_HEIGHT_PT
+        return self.width, self.height
+
+    def split(self, available_width: float, available_height: float) -> list[Flowable]:
+        fit = int(available_height // LABEL_HEIGHT_PT)
+        if fit < 1:
+            return []
+        cut = fit * self.per_row
+        return [
+            LabelSheet(self.labels[:cut], self.per_row),
+            LabelSheet(self.labels[cut:], self.per_row),
+        ]
+
+    def draw(self) -> None:
+        canvas = self.canv
+        canvas.setDash(2, 2)
+        canvas.setStrokeColor(pdf.MUTED)
+        canvas.setLineWidth(0.5)
+        for index, label in enumerate(self.labels):
+            column, row = index % self.per_row, index // self.per_row
+            x = column * LABEL_WIDTH_PT
+            y = self.height - (row + 1) * LABEL_HEIGHT_PT
+            canvas.rect(x, y, LABEL_WIDTH_PT, LABEL_HEIGHT_PT, stroke=1, fill=0)
+            self._draw_label(label, x + 5, y + LABEL_HEIGHT_PT - 11)
+        canvas.setDash()
+
+    def _draw_label(self, label: PackLabel, x: float, y: float) -> None:
+        canvas = self.canv
+        width = LABEL_WIDTH_PT - 10
+        installed = label.installed_on.isoformat() + (" (planned)" if label.planned else "")
+        lines = [
+            Line("EMERGENCY PACK", pdf.FONT_CONDENSED_BOLD, 8),
+            Line(f"Fixture {label.tag}", pdf.FONT_CONDENSED_BOLD, 8),
+            *wrap_lines(label.pack, width, size=6.8, color=pdf.MUTED)[:2],
+            Line(f"Installed on: {installed}"),
+            Line(
+                f"Replace by: {label.replace_by.isoformat()} ({label.life_years:.1f} years)",
+                pdf.FONT_CONDENSED_BOLD,
+                8,
+            ),
+        ]
+        text = canvas.beginText()
+        for line in lines:
+            text.setTextOrigin(x, y)
+            text.setFont(line.font, line.size)
+            text.setFillColor(line.color)
+            text.textOut(_fit(line.text, line.font, line.size, width))
+            y -= LEADING_PT * 0.98
+        canvas.drawText(text)
+
+
+def _fit(text: str, font: str, size: float, width_pt: float) -> str:
+    if stringWidth(text, font, size) <= width_pt:
+        return text
+    while text and stringWidth(text + "\u2026", font, size) > width_pt:
+        text = text[:-1]
+    return text + "\u2026"
 
 
 def _labels(labels: list[PackLabel], width_pt: float) -> list[Flowable]:
     per_row = max(1, int(width_pt // LABEL_WIDTH_PT))
-    cells = [_label(label) for label in labels]
-    rows = [cells[i : i + per_row] for i in range(0, len(cells), per_row)]
-    if rows:
-        rows[-1] += [[] for _ in range(per_row - len(rows[-1]))]
-    table = Table(
-        rows,
-        colWidths=[LABEL_WIDTH_PT] * per_row,
-        rowHeights=[LABEL_HEIGHT_PT] * len(rows),
-        hAlign="LEFT",
-    )
-    table.setStyle(
-        TableStyle(
-            [
-                ("VALIGN", (0, 0), (-1, -1), "TOP"),
-                ("GRID", (0, 0), (-1, -1), 0.5, pdf.MUTED, None, (2, 2)),
-                ("LEFTPADDING", (0, 0), (-1, -1), 5),
-                ("TOPPADDING", (0, 0), (-1, -1), 4),
-            ]
-        )
-    )
     return [
         PageBreak(),
         pdf.para("Pack labels", "title"),
@@ -257,7 +395,7 @@ def _labels(labels: list[PackLabel], width_pt: float) -> list[Flowable]:
             "small",
         ),
         Spacer(1, 2 * mm),
-        table,
+        LabelSheet(labels, per_row),
     ]
 
 
@@ -283,7 +421,7 @@ def work_order_pdf(sheet: WorkOrderSheet) -> bytes:
         story += [pdf.heading("Notes for the crew"), pdf.para(sheet.crew_notes)]
     story += _sketches(sheet, width)
     for block in sheet.areas:
-        story += [CondPageBreak(50 * mm), Spacer(1, 2 * mm), _area_table(block, width)]
+        story += [CondPageBreak(50 * mm), Spacer(1, 2 * mm), _area(block, width)]
     story += [
         KeepTogether(
             [

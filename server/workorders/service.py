@@ -665,6 +665,7 @@ class FixtureRow:
     page_url: str
     status: str
     result: str
+    survey_note: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -770,6 +771,7 @@ def work_order_sheet(
                 page_url=base + FIXTURE_PAGE_PATH.format(fixture_id=fixture.id),
                 status=task.status,
                 result=result,
+                survey_note=fixture.notes,
             )
         )
         done_on = task.done_at.date() if task.status == "done" and task.done_at else None

@@ -16,6 +16,7 @@ from __future__ import annotations
 import itertools
 from functools import lru_cache
 
+from PIL import Image
 from reportlab.graphics.barcode import qrencoder
 from reportlab.graphics.barcode.qr import QrCodeWidget
 from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Path, PolyLine, Rect, String
@@ -368,31 +369,69 @@ def qr_modules(text: str, level: str = "L") -> list[list[bool]]:
     return modules
 
 
+def dark_rects(modules: list[list[bool]]) -> list[tuple[int, int, int, int]]:
+    """The dark modules as few rectangles (column, row, width, height), in module units
+    from the top left: runs along each row, stacked where the same run repeats below."""
+    open_runs: dict[tuple[int, int], tuple[int, int]] = {}  # (column, width) -> (row, height)
+    rects = []
+    for r, row in enumerate(modules):
+        runs = set()
+        column = 0
+        for dark, run in itertools.groupby(row):
+            length = len(list(run))
+            if dark:
+                runs.add((column, length))
+            column += length
+        for key in list(open_runs):
+            if key not in runs:
+                start, height = open_runs.pop(key)
+                rects.append((key[0], start, key[1], height))
+        for key in runs:
+            start, height = open_runs.get(key, (r, 0))
+            open_runs[key] = (start, height + 1)
+    rects += [(key[0], start, key[1], height) for key, (start, height) in open_runs.items()]
+    return rects
+
+
 class FixtureQr(QrCodeWidget):
     """A QrCodeWidget that lays out fast enough for a thousand on one order: one
     fixed mask, cached layouts and check polynomials, and the dark modules drawn
-    as one path instead of a rectangle each. The text is always byte-mode.
+    as one path of merged rectangles instead of a rectangle each. The text is
+    always byte-mode.
     """
 
-    def draw(self) -> Group:
+    def rects(self) -> tuple[float, list[tuple[float, float, float, float]]]:
+        """The module size and the dark rectangles (x, y, width, height) in points."""
         modules = qr_modules(str(self.value), self.barLevel)
-        count = len(modules)
         size = float(min(self.barWidth, self.barHeight))
-        box = size / (count + self.barBorder * 2.0)
+        box = size / (len(modules) + self.barBorder * 2.0)
+        top = self.y + size - self.barBorder * box
+        left = self.x + self.barBorder * box
+        return box, [
+            (left + c * box, top - (r + h) * box, w * box, h * box)
+            for c, r, w, h in dark_rects(modules)
+        ]
+
+    def bitmap(self) -> Image.Image:
+        """The code as a one-bit image, a pixel per module with the quiet border: drawn
+        scaled up, it prints as sharp as the vector form and costs a fraction of it."""
+        modules = qr_modules(str(self.value), self.barLevel)
+        border = int(self.barBorder)
+        side = len(modules) + 2 * border
+        image = Image.new("1", (side, side), 1)
+        blank = [1] * side
+        pixels = blank * border
+        for row in modules:
+            pixels += [1] * border + [0 if dark else 1 for dark in row] + [1] * border
+        image.putdata(pixels + blank * border)
+        return image
+
+    def draw(self) -> Group:
         points: list[float] = []
         operators: list[int] = []
-        for r, row in enumerate(modules):
-            column = 0
-            top = self.y + size - (r + self.barBorder) * box
-            bottom = top - box
-            for dark, run in itertools.groupby(row):
-                length = len(list(run))
-                if dark:
-                    left = self.x + (column + self.barBorder) * box
-                    right = left + length * box
-                    points += (left, top, right, top, right, bottom, left, bottom)
-                    operators += (0, 1, 1, 1, 3)  # move, line, line, line, close
-                column += length
+        for x, y, w, h in self.rects()[1]:
+            points += (x, y, x + w, y, x + w, y + h, x, y + h)
+            operators += (0, 1, 1, 1, 3)  # move, line, line, line, close
         path = Path(fillColor=self.barFillColor, strokeColor=None, strokeWidth=0)
         # Set past the attribute checker: it would walk all the points once more.
         path.__dict__.update(points=points, operators=operators)

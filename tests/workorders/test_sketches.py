@@ -103,3 +103,27 @@ def test_qr_widget_draws_one_path_inside_its_box() -> None:
     xs, ys = path.points[0::2], path.points[1::2]
     assert min(xs) >= 0 and max(xs) <= 48 and min(ys) >= 0 and max(ys) <= 48
     assert path.operators.count(3) >= 50  # one closed rectangle per run of dark modules
+
+
+def test_qr_bitmap_is_the_module_matrix_with_its_border() -> None:
+    url = "http://127.0.0.1:8000/fixtures/x"
+    modules = sketches.qr_modules(url)
+    image = sketches.FixtureQr(url, barBorder=2).bitmap()
+    side = len(modules) + 4
+    assert image.size == (side, side) and image.mode == "1"
+    pixels = list(image.getdata())
+    for r, row in enumerate(modules):
+        for c, dark in enumerate(row):
+            assert (pixels[(r + 2) * side + c + 2] == 0) is dark
+    assert all(pixels[i] for i in range(2 * side))  # the quiet zone is white
+
+
+def test_dark_rects_cover_exactly_the_dark_modules() -> None:
+    modules = sketches.qr_modules("http://127.0.0.1:8000/fixtures/y")
+    covered = [[False] * len(modules) for _ in modules]
+    for column, row, width, height in sketches.dark_rects(modules):
+        for r in range(row, row + height):
+            for c in range(column, column + width):
+                assert not covered[r][c]
+                covered[r][c] = True
+    assert covered == modules
