@@ -689,8 +689,7 @@ def _cheapest(
         return Suggestion(
             passes=True,
             explanation=(
-                f"The cheapest of {combinations} combinations in the catalogue that passes every "
-                f"rule: {module.name} with {pack.name}."
+                f"The cheapest that passes every rule of the {combinations} combinations checked."
             ),
             module=module,
             pack=pack,

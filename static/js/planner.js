@@ -54,6 +54,14 @@
     document.querySelectorAll("form[data-sent]").forEach(release);
   });
 
+  // A form shown again with errors: put the cursor in the first field to correct.
+  document.addEventListener("DOMContentLoaded", function () {
+    var wrong = document.querySelector("form [aria-invalid=true]");
+    if (wrong && typeof wrong.focus === "function") {
+      wrong.focus();
+    }
+  });
+
   document.addEventListener("focusin", function (event) {
     var field = event.target;
     if (field instanceof HTMLInputElement && field.classList.contains("numeric")) {
