@@ -111,7 +111,7 @@ def test_qr_bitmap_is_the_module_matrix_with_its_border() -> None:
     image = sketches.FixtureQr(url, barBorder=2).bitmap()
     side = len(modules) + 4
     assert image.size == (side, side) and image.mode == "1"
-    pixels = list(image.getdata())
+    pixels = [image.getpixel((i % side, i // side)) for i in range(side * side)]
     for r, row in enumerate(modules):
         for c, dark in enumerate(row):
             assert (pixels[(r + 2) * side + c + 2] == 0) is dark
