@@ -656,6 +656,30 @@ def _latest_load_test(records: Sequence[TestRecord]) -> core.LoadTest | None:
     return None
 
 
+def _survey_load_test(log: FixtureLog, installed: date | None) -> core.LoadTest | None:
+    """The load test on the fixture's own record, when it can only be of the pack now in it.
+
+    On a fixture surveyed without a kit, readings on its record were taken of
+    the pack fitted at conversion; they count as of the installation date. On
+    one surveyed with a kit they are the old pack's and are not used.
+    """
+    fixture = log.fixture
+    if fixture.existing_kit or installed is None or installed != fixture.commissioned_on:
+        return None
+    if fixture.open_circuit_v is None or fixture.loaded_v is None:
+        return None
+    try:
+        reading = PackReading(
+            open_circuit_v=fixture.open_circuit_v,
+            loaded_v=fixture.loaded_v,
+            load_a=fixture.load_a,
+            load_ohm=fixture.load_ohm,
+        )
+    except CoreInvalidInput:
+        return None
+    return core.LoadTest(tested_on=installed, reading=reading)
+
+
 def _reason_read(reason: core.ReplacementReason) -> schemas.ReasonRead:
     return schemas.ReasonRead(
         code=reason.code.value,
@@ -722,7 +746,7 @@ def assess(
             required_min=required_min,
             tests=tests,
             installed_on=since,
-            load_test=_latest_load_test(standing),
+            load_test=_latest_load_test(standing) or _survey_load_test(log, since),
             module_cutoff_v=module.cutoff_v,
         )
     except CoreInvalidInput as exc:

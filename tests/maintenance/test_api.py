@@ -203,6 +203,34 @@ def test_replacements_list_reasons_and_dates(client_as, directory) -> None:
     assert {reason["code"] for reason in items["E-02"]["reasons"]} == {"service-life"}
 
 
+def test_readings_on_the_fixture_count_only_without_an_old_kit(client_as, directory) -> None:
+    with orm_session(directory.database_url) as session:
+        org = org_of(session, directory.email("surveyor"))
+        made = make_site(session, org, commissioned_on=TODAY - timedelta(days=30))
+    surveyor = client_as("surveyor")
+    first, second = made.fixture_ids[:2]
+    # The worn-pack readings of ENGINEERING.md §2 (common practice) on both records;
+    # the second fixture was surveyed with a kit, so its readings are the old pack's.
+    worn = {"open_circuit_v": 5.2, "loaded_v": 3.0, "load_ohm": 9.1}
+    for fixture_id, existing in ((first, False), (second, True)):
+        read = surveyor.get(f"/api/v1/fixtures/{fixture_id}").json()
+        extra = {"pack_chemistry": "NiCd", "pack_cells": 4} if existing else {}
+        answer = surveyor.patch(
+            f"/api/v1/fixtures/{fixture_id}",
+            json={"version": read["version"], "existing_kit": existing, **extra, **worn},
+        )
+        assert answer.status_code == 200, answer.text
+    codes = {
+        fixture_id: {
+            reason["code"]
+            for reason in surveyor.get(f"/api/v1/fixtures/{fixture_id}/condition").json()["reasons"]
+        }
+        for fixture_id in (first, second)
+    }
+    assert "sag-below-cutoff" in codes[first]
+    assert "sag-below-cutoff" not in codes[second]
+
+
 def test_a_new_pack_restarts_age_and_trend(client_as, directory) -> None:
     with orm_session(directory.database_url) as session:
         org = org_of(session, directory.email("surveyor"))
