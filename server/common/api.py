@@ -94,7 +94,7 @@ def add_collection_routes(router: APIRouter, path: str, resource: Resource, *, t
         user: User = reader,
         parent_id: str | None = parent,
         limit: int = Query(50, ge=1, le=500),
-        offset: int = Query(0, ge=0),
+        offset: int = Query(0, ge=0, le=1_000_000),
     ) -> dict[str, Any]:
         where = _parent_filter(session, user, parent_id)
         items, total = crud.list_owned(
