@@ -74,7 +74,7 @@ def list_quotes(
     building_id: str | None = None,
     state: schemas.QuoteStateName | None = None,
     limit: int = Query(50, ge=1, le=500),
-    offset: int = Query(0, ge=0),
+    offset: int = Query(0, ge=0, le=1_000_000),
 ) -> schemas.QuotePage:
     return service.list_quotes(
         session=session,

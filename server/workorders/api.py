@@ -72,7 +72,7 @@ def list_work_orders(
     user: SurveyorUser,
     state: schemas.WorkOrderStateName | None = None,
     limit: int = Query(50, ge=1, le=500),
-    offset: int = Query(0, ge=0),
+    offset: int = Query(0, ge=0, le=1_000_000),
 ) -> schemas.WorkOrderPage:
     return service.list_work_orders(
         session=session, user=user, state=state, limit=limit, offset=offset
