@@ -251,8 +251,10 @@ def findings_panel(
         return panel
     if fixture is None:
         named = [field_labels.get(name, name) for name in problems if name in field_labels]
-        panel["message"] = "Complete the fields marked in the form to see the findings" + (
-            f": {', '.join(named)}." if named else "."
+        panel["message"] = (
+            f"To see the findings, fill in or correct: {', '.join(named)}."
+            if named
+            else "To see the findings, correct the form."
         )
         return panel
     try:

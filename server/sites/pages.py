@@ -523,8 +523,11 @@ def _fixture_form(
     form: FormData | None = None,
     fixture: Fixture | None = None,
     photo_error: str = "",
+    problems: Mapping[str, str] | None = None,
     status_code: int | None = None,
 ) -> HTMLResponse:
+    """The fixture form beside its findings; ``problems`` names what keeps the checks from
+    running (the form's own errors unless given)."""
     building = crud.get_owned(session, Building, org_id=user.org_id, record_id=area.building_id)
     photos = (
         service.photos_of(session=session, org_id=user.org_id, fixture_id=fixture.id)
@@ -542,7 +545,9 @@ def _fixture_form(
             "fixture": fixture,
             "labels": FIXTURE_LABELS,
             "choices": _choices(),
-            "panel": _panel(session, user, area, body, view.errors, form, fixture=fixture),
+            "panel": _panel(
+                session, user, area, body, problems or view.errors, form, fixture=fixture
+            ),
             "photos": photos,
             "photo_id": str(uuid.uuid4()),
             "photo_error": photo_error,
@@ -559,7 +564,11 @@ def new_fixture_page(
     area = crud.get_owned(session, Area, org_id=user.org_id, record_id=area_id)
     tag = service.suggested_tag(session=session, org_id=user.org_id, area_id=area.id)
     view = forms.blank_form(FixtureCreate, tag=tag, **FIXTURE_DEFAULTS)
-    return _fixture_form(request, session, user, view, area=area, body=None)
+    # What the blank form still lacks before the checks can run (the lamp watts).
+    _, unchecked = forms.read_form(FixtureCreate, FormData(list(view.values.items())))
+    return _fixture_form(
+        request, session, user, view, area=area, body=None, problems=unchecked.errors
+    )
 
 
 @router.post("/areas/{area_id}/fixtures/new")

@@ -49,6 +49,7 @@ def test_building_area_and_fixture_made_through_the_pages(browser_session_as, cl
 
 
 def test_new_fixture_form_has_the_usual_defaults(browser_session_as, client_as) -> None:
+    catalogue(client_as("estimator"))
     made = survey(client_as("surveyor"))
     page = parse(
         browser_session_as("surveyor").get(f"/areas/{made['area']['id']}/fixtures/new").text
@@ -59,6 +60,9 @@ def test_new_fixture_form_has_the_usual_defaults(browser_session_as, client_as) 
     assert field_value(page, "tag") == "T-02"  # after the area's T-01
     numeric = page.find("input", name="lamp_w")
     assert numeric.attrs["inputmode"] == "decimal"
+    assert field_error(page, "lamp_w") == ""  # nothing marked before the first save
+    panel = page.find(id="findings").text()
+    assert panel == "To see the findings, fill in or correct: Lamp watts."
 
 
 def test_the_same_form_sent_twice_makes_one_fixture(browser_session_as, client_as) -> None:
