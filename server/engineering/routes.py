@@ -532,66 +532,51 @@ def _route_findings(
     uses_default_distribution: bool,
 ) -> list[Finding]:
     line = "the path" if profile.evaluation is Evaluation.PATH else "the centre line"
+    # (code, what, have, need, where along the route) for each level the profile sets
+    levels: list[tuple[str, str, float, float | None, float | None]] = [
+        ("route-minimum", f"The lowest illuminance on {line}", min_lux, profile.min_lux, worst_s_m),
+        ("route-average", f"The average illuminance along {line}", avg_lux, profile.avg_lux, None),
+    ]
+    if band is not None and profile.central_band_min_share is not None:
+        levels.append(
+            (
+                "route-central-band",
+                "The lowest illuminance in the central band (half the route width)",
+                band[0],
+                profile.min_lux * profile.central_band_min_share,
+                band[1],
+            )
+        )
+    if end is not None:
+        at_end = f"At the end of the {profile.duration_min:.0f} min, the"
+        end_min_lux, end_s_m, end_avg_lux = end
+        levels.append(
+            (
+                "route-end-minimum",
+                f"{at_end} lowest illuminance on {line}",
+                end_min_lux,
+                profile.end_min_lux,
+                end_s_m,
+            )
+        )
+        levels.append(
+            (
+                "route-end-average",
+                f"{at_end} average illuminance along {line}",
+                end_avg_lux,
+                profile.end_avg_lux,
+                None,
+            )
+        )
     findings = [
         _level_finding(
-            code="route-minimum",
-            what=f"The lowest illuminance on {line}",
-            have_lux=min_lux,
-            need_lux=profile.min_lux,
-            where_s_m=worst_s_m,
-            profile=profile,
+            code=code, what=what, have_lux=have, need_lux=need, where_s_m=where, profile=profile
         )
+        for code, what, have, need, where in levels
+        if need is not None
     ]
-    if profile.avg_lux is not None:
-        findings.append(
-            _level_finding(
-                code="route-average",
-                what=f"The average illuminance along {line}",
-                have_lux=avg_lux,
-                need_lux=profile.avg_lux,
-                where_s_m=None,
-                profile=profile,
-            )
-        )
-    if band is not None and profile.central_band_min_share is not None:
-        band_min_lux, band_s_m = band
-        findings.append(
-            _level_finding(
-                code="route-central-band",
-                what="The lowest illuminance in the central band (half the route width)",
-                have_lux=band_min_lux,
-                need_lux=profile.min_lux * profile.central_band_min_share,
-                where_s_m=band_s_m,
-                profile=profile,
-            )
-        )
     findings.append(_uniformity_finding(min_lux, max_lux, worst_s_m, profile))
     if end is not None:
-        end_min_lux, end_s_m, end_avg_lux = end
-        if profile.end_min_lux is not None:
-            findings.append(
-                _level_finding(
-                    code="route-end-minimum",
-                    what=f"At the end of the {profile.duration_min:.0f} min, the lowest "
-                    f"illuminance on {line}",
-                    have_lux=end_min_lux,
-                    need_lux=profile.end_min_lux,
-                    where_s_m=end_s_m,
-                    profile=profile,
-                )
-            )
-        if profile.end_avg_lux is not None:
-            findings.append(
-                _level_finding(
-                    code="route-end-average",
-                    what=f"At the end of the {profile.duration_min:.0f} min, the average "
-                    f"illuminance along {line}",
-                    have_lux=end_avg_lux,
-                    need_lux=profile.end_avg_lux,
-                    where_s_m=None,
-                    profile=profile,
-                )
-            )
         findings.append(
             Finding(
                 code="route-end-model",
