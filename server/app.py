@@ -47,9 +47,11 @@ def include_routers(app: FastAPI) -> None:
     from server.proposals import api as proposals_api
     from server.proposals import pages as proposals_pages
     from server.quotes import api as quotes_api
+    from server.quotes import pages as quotes_pages
     from server.sites import api as sites_api
     from server.sites import pages as sites_pages
     from server.workorders import api as workorders_api
+    from server.workorders import pages as workorders_pages
 
     app.include_router(accounts_api.router)
     app.include_router(accounts_pages.router)
@@ -63,6 +65,8 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(escape_api.router)
     app.include_router(quotes_api.router)
     app.include_router(workorders_api.router)
+    app.include_router(quotes_pages.router)
+    app.include_router(workorders_pages.router)
     app.include_router(maintenance_api.router)
     app.include_router(maintenance_pages.router)
 

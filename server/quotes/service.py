@@ -100,6 +100,7 @@ STATE_VERBS = {
     QuoteState.ISSUED: "issue a work order",
     QuoteState.COMPLETED: "complete a work order",
 }
+TEXT_SETTINGS = ("client_name", "client_address", "client_contact", "scope", "assumptions")
 # Settings whose change re-prices the generated lines.
 PRICING_SETTINGS = frozenset(
     {
@@ -745,6 +746,9 @@ def update_settings(
     _require_role(user, Role.ESTIMATOR, "change quotes")
     quote = get_quote(session=session, user=user, quote_id=quote_id)
     requested = body.model_dump(exclude_unset=True, exclude={"version"})
+    for name in TEXT_SETTINGS:
+        if name in requested and requested[name] is None:
+            requested[name] = ""
     unchanged = all(getattr(quote, name) == value for name, value in requested.items())
     if unchanged and body.version <= quote.version:
         return quote  # a retry of a change already made, or nothing to do
@@ -881,14 +885,16 @@ def update_line(
     _require_role(user, Role.ESTIMATOR, "change quotes")
     quote = get_quote(session=session, user=user, quote_id=quote_id)
     line = _line_of(quote, line_id)
-    requested = body.model_dump(exclude_unset=True, exclude={"version"})
+    # A field left out (or null) stays as it is.
+    requested = {
+        name: value
+        for name, value in body.model_dump(exclude_unset=True, exclude={"version"}).items()
+        if value is not None
+    }
     if all(getattr(line, name) == value for name, value in requested.items()):
         return quote
     _require_draft(quote)
     _require_version(quote, body.version)
-    for name, value in requested.items():
-        if value is None:
-            raise InvalidInput(name, "give a value (it cannot be emptied)")
     if (
         "override_reason" in requested
         and line.override_reason

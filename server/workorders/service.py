@@ -529,6 +529,9 @@ def update_work_order(
     _require_role(user, Role.SUPERVISOR, "change a work order")
     order = get_work_order(session=session, user=user, work_order_id=work_order_id)
     requested = body.model_dump(exclude_unset=True, exclude={"version"})
+    for name in ("crew", "crew_notes"):
+        if name in requested and requested[name] is None:
+            requested[name] = ""
     if all(getattr(order, name) == value for name, value in requested.items()):
         return order
     _require_issued(order)
@@ -538,9 +541,6 @@ def update_work_order(
             f"{body.version}, it is now at version {order.version}). Nothing was changed.",
             current={"crew": order.crew, "version": order.version},
         )
-    for name in ("crew", "crew_notes"):
-        if name in requested and requested[name] is None:
-            raise InvalidInput(name, "give a value (it may be empty text)")
     changes = {name: [getattr(order, name), value] for name, value in requested.items()}
     for name, value in requested.items():
         setattr(order, name, value)
