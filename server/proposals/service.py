@@ -420,6 +420,19 @@ def _check_version(proposal: Proposal, version: int | None) -> None:
         )
 
 
+def _acceptance_kept(proposal: Proposal, changes: dict[str, Any]) -> dict[str, Any]:
+    """Changes with the acceptance withdrawn when fresh checks fail and no reason was given.
+
+    An accepted proposal whose checks now fail (the survey or the catalogue
+    changed) goes back to draft rather than reach the quote unexplained.
+    """
+    failing = changes.get("verdict") == Verdict.FAIL.value
+    accepted = changes.get("status", proposal.status) == Status.ACCEPTED.value
+    if failing and accepted and not changes.get("override_reason", proposal.override_reason):
+        return {**changes, "status": Status.DRAFT.value}
+    return changes
+
+
 def save_proposal(
     *,
     session: Session,
@@ -461,7 +474,7 @@ def save_proposal(
         changes = {"module_id": module.id, "pack_id": pack.id, **columns}
         if not same_choice:
             changes.update(status=Status.DRAFT.value, override_reason="")
-        _commit_change(session, user, existing, changes, "update")
+        _commit_change(session, user, existing, _acceptance_kept(existing, changes), "update")
         return existing, False
     if proposal_id is not None and session.get(Proposal, proposal_id) is not None:
         raise Conflict("This proposal id is already used by another fixture; make a new id.")
@@ -568,7 +581,7 @@ def recheck(
     """Run the checks again on the stored choice (after the survey or catalogue changed)."""
     proposal = get_proposal(session=session, org_id=user.org_id, fixture_id=fixture_id)
     _, columns = _recomputed(session, user.org_id, proposal, today)
-    _commit_change(session, user, proposal, columns, "recheck")
+    _commit_change(session, user, proposal, _acceptance_kept(proposal, columns), "recheck")
     return proposal
 
 

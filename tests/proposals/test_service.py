@@ -317,3 +317,26 @@ def test_an_existing_pack_that_sags_below_cut_off_fails(
     assert check.verdict.value == "fail"
     assert "pack.sag-below-cutoff" in {finding.code for finding in check.findings}
     assert check.made_on == date(2024, 3, 1)
+
+
+def test_an_accepted_proposal_that_starts_failing_goes_back_to_draft(
+    session: Session, site: dict[str, Any], estimator: User
+) -> None:
+    proposal, _ = service.save_proposal(
+        session=session,
+        user=estimator,
+        fixture_id=site["fixture"].id,
+        module_id=site["both"].id,
+        pack_id=site["big"].id,
+        today=TODAY,
+    )
+    accepted = service.accept(
+        session=session, user=estimator, fixture_id=site["fixture"].id, version=proposal.version
+    )
+    assert accepted.status == "accepted"
+    # Above the pack's marked 50 degC maximum: fail (ENGINEERING.md section 2, IEC 61347-2-7
+    # marked temperature, checked against pages quoting it).
+    site["fixture"].ambient_c = 60.0
+    session.commit()
+    rechecked = service.recheck(session=session, user=estimator, fixture_id=site["fixture"].id)
+    assert (rechecked.verdict, rechecked.status) == ("fail", "draft")
