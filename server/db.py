@@ -67,6 +67,7 @@ def import_all_models() -> None:
     from server.accounts import models as _accounts  # noqa: F401
     from server.audit import models as _audit  # noqa: F401
     from server.catalogue import models as _catalogue  # noqa: F401
+    from server.escape import models as _escape  # noqa: F401
     from server.maintenance import models as _maintenance  # noqa: F401
     from server.proposals import models as _proposals  # noqa: F401
     from server.quotes import models as _quotes  # noqa: F401
