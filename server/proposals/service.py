@@ -90,6 +90,8 @@ def _engine(field: str, build: Callable[[], T], *, prefix: str = "") -> T:
         return build()
     except EngineInvalidInput as exc:
         raise InvalidInput(field if prefix else exc.field, f"{prefix}{exc.reason}") from None
+    except ValueError as exc:  # a rule of the core without a field of its own
+        raise InvalidInput(field, f"{prefix}{exc}") from None
 
 
 def engine_fixture(fixture: FixtureLike) -> compatibility.Fixture:
@@ -680,7 +682,7 @@ def _cheapest(
                 result = compatibility.evaluate(
                     fixture, core_module, core_pack, requirement, today=today
                 )
-            except EngineInvalidInput:
+            except ValueError:  # the core refuses this pair (InvalidInput is one)
                 continue
             price = module.price + pack.price
             if result.verdict is Verdict.PASS:
