@@ -8,7 +8,7 @@ from reportlab.lib.units import mm
 from reportlab.platypus import Flowable, KeepTogether, Spacer, Table, TableStyle
 
 from server import pdf
-from server.quotes.service import QuoteSheet
+from server.quotes.service import QuoteSheet, plain
 from server.safety import CADMIUM, LAMP_VOLTAGE, QUALIFIED_PERSON, STAYS_LIVE
 
 KIND_LABELS = {
@@ -24,14 +24,8 @@ def money(value: Decimal, currency: str) -> str:
     return f"{currency} {value:,.2f}"
 
 
-def percent(value: Decimal) -> str:
-    """8.25 -> "8.25", 10.00 -> "10", 0 -> "0"."""
-    return format(value.normalize(), "f")
-
-
 def _quantity(value: Decimal) -> str:
-    text = f"{value:,.3f}".rstrip("0").rstrip(".")
-    return text or "0"
+    return f"{value.normalize():,f}"
 
 
 def _blocks(sheet: QuoteSheet, width_pt: float) -> Table:
@@ -121,20 +115,20 @@ def _totals_table(sheet: QuoteSheet, width_pt: float) -> Table:
     if quote.markup_pct:
         rows.append(
             [
-                f"Overheads and margin ({percent(quote.markup_pct)} %)",
+                f"Overheads and margin ({plain(quote.markup_pct)} %)",
                 money(totals.markup, currency),
             ]
         )
     if quote.discount_pct:
         rows.append(
             [
-                f"Discount ({percent(quote.discount_pct)} %)",
+                f"Discount ({plain(quote.discount_pct)} %)",
                 f"\u2212 {money(totals.discount, currency)}",
             ]
         )
     if quote.markup_pct or quote.discount_pct:
         rows.append(["Net", money(totals.net, currency)])
-    rows.append([f"Tax ({percent(quote.tax_pct)} %)", money(totals.tax, currency)])
+    rows.append([f"Tax ({plain(quote.tax_pct)} %)", money(totals.tax, currency)])
     rows.append(["Total", money(totals.total, currency)])
     cells = [
         [

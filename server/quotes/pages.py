@@ -159,7 +159,7 @@ def _builder(
         line.id: FormView(
             values={
                 "description": line.description,
-                "quantity": forms.shown(line.quantity.normalize()),
+                "quantity": service.plain(line.quantity),
                 "unit": line.unit,
                 "unit_price": forms.shown(line.unit_price),
                 "override_reason": line.override_reason,
@@ -194,6 +194,12 @@ def _builder(
             "issue_form": issue_form or forms.blank_form(workorder_schemas.WorkOrderIssue),
             "kinds": [(kind, kind) for kind in ("manual", "material", "labour", "sundry")],
             "notice": notice,
+            "percents": {
+                "markup": service.plain(read.markup_pct),
+                "discount": service.plain(read.discount_pct),
+                "tax": service.plain(read.tax_pct),
+            },
+            "quantities": {line.id: service.plain(line.quantity) for line in read.lines},
         },
         status_code=status_code,
     )

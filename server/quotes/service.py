@@ -129,6 +129,11 @@ def decimal_of(value: float | Decimal, places: str = "0.01") -> Decimal:
     return Decimal(repr(float(value))).quantize(Decimal(places), rounding=ROUND_HALF_UP)
 
 
+def plain(value: Decimal) -> str:
+    """A percentage or quantity without trailing zeros: 8.25 -> "8.25", 10.00 -> "10"."""
+    return format(value.normalize(), "f")
+
+
 def line_amount(quantity: Decimal, unit_price: Decimal) -> Decimal:
     return to_cents(quantity * unit_price)
 
