@@ -212,6 +212,11 @@ def test_a_photo_is_kept_checked_by_its_bytes_and_served(browser_session_as, cli
     refused = _post(browser, path, {"photo_id": str(uuid.uuid4())}, files=fake)
     assert refused.status_code == 422
     assert "Only JPEG, PNG or WebP" in parse(refused.text).find(id="photo-error").text()
+    limit = 5 * 1024 * 1024  # settings.upload_max_bytes, its default
+    huge = {"photo": ("big.jpg", b"\xff\xd8\xff\xe0" + bytes(limit), "image/jpeg")}
+    too_big = _post(browser, path, {"photo_id": str(uuid.uuid4())}, files=huge)
+    assert too_big.status_code == 422
+    assert "larger than 5 MB" in parse(too_big.text).find(id="photo-error").text()
 
 
 def test_photo_types_by_their_first_bytes() -> None:
