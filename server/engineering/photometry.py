@@ -565,6 +565,7 @@ def parse_lm63(text: str) -> Lm63Photometry:
     horizontal, horizontal_lines = reader.numbers(horizontal_count, "the horizontal angles")
     _check_type_c_angles(vertical, vertical_lines, horizontal, horizontal_lines)
     candela_rows = []
+    first_candela_line = reader.next_line
     for angle in horizontal:
         row, row_lines = reader.numbers(vertical_count, f"the candela values at {angle:g} deg")
         for value, value_line in zip(row, row_lines, strict=True):
@@ -577,25 +578,31 @@ def parse_lm63(text: str) -> Lm63Photometry:
             f"numbers follow the last candela value; the counts promise {vertical_count} "
             f"vertical x {horizontal_count} horizontal values",
         )
-    candela = np.vstack(candela_rows) * multiplier
-
-    tilt_factor = 1.0
-    if tilt_factors:  # level mounting, as tested: the factor at 0 deg tilt
-        tilt_factor = float(np.interp(0.0, tilt_angles, tilt_factors))
-    if lumens_per_lamp == -1:
-        lumens_per_lamp_lm: float | None = None
-        absolute_flux_lm = distribution_flux_lm(
-            _GridDistribution(vertical, horizontal, candela * tilt_factor)
-        )
-        if absolute_flux_lm <= 0:
-            raise Lm63FormatError(
-                tilt_index + 1, "all candela values are 0: the file describes no light"
+    # Extreme multipliers or lumens overflow to inf; refused just below.
+    with np.errstate(over="ignore", invalid="ignore"):
+        candela = np.vstack(candela_rows) * multiplier
+        tilt_factor = 1.0
+        if tilt_factors:  # level mounting, as tested: the factor at 0 deg tilt
+            tilt_factor = float(np.interp(0.0, tilt_angles, tilt_factors))
+        if lumens_per_lamp == -1:
+            lumens_per_lamp_lm: float | None = None
+            absolute_flux_lm = distribution_flux_lm(
+                _GridDistribution(vertical, horizontal, candela * tilt_factor)
             )
-        per_lm = candela * tilt_factor / absolute_flux_lm
-    else:
-        lumens_per_lamp_lm = lumens_per_lamp
-        per_lm = candela * tilt_factor / (lamp_count * lumens_per_lamp)
+            if absolute_flux_lm <= 0:
+                raise Lm63FormatError(
+                    first_candela_line, "all candela values are 0: the file describes no light"
+                )
+            per_lm = candela * tilt_factor / absolute_flux_lm
+        else:
+            lumens_per_lamp_lm = lumens_per_lamp
+            per_lm = candela * tilt_factor / (lamp_count * lumens_per_lamp)
 
+    if not np.all(np.isfinite(per_lm)):
+        raise Lm63FormatError(
+            multiplier_line,
+            "the candela values, multiplier and lumens give intensities too large to compute",
+        )
     return Lm63Photometry(
         edition=edition,
         keywords=keywords,
@@ -741,7 +748,8 @@ def floor_illuminance_lx(
     Returns
     -------
     ndarray
-        Illuminance on the floor at each point. [lx]
+        Illuminance on the floor at each point; inf where the sum overflows
+        (a luminaire almost on the floor). [lx]
 
     References
     ----------
@@ -766,7 +774,8 @@ def floor_illuminance_lx(
         theta = np.arccos(np.clip(cos_theta, -1.0, 1.0))
         psi = np.arctan2(dy, dx) - axis_rad
         intensity = (flux_lm / count) * distribution.intensity_cd_per_lm(theta, psi)
-        total += intensity * cos_theta / distance2
+        with np.errstate(over="ignore", invalid="ignore"):  # callers check for inf
+            total += intensity * cos_theta / distance2
     return total
 
 

@@ -53,6 +53,10 @@ DEFAULT_MAINTENANCE_FACTOR = 0.8  # common practice ([4])
 DEFAULT_STEP_M = 0.1  # project default sampling interval along the centre line
 MAX_SAMPLES = 10_000  # our own limit on centre-line points (1 km at 0.1 m), for response time
 MAX_MATRIX_ENTRIES = 6_000_000  # our own limit on points x luminaires (about 50 MB of floats)
+# Our own plausibility limits, well beyond any building, that keep the sums finite.
+MAX_PLAN_M = 100_000.0  # plan coordinates within 100 km of the origin
+MAX_HEIGHT_M = 1_000.0  # mounting height and luminous length
+MAX_FLUX_LM = 10_000_000.0  # emergency lumens of one luminaire
 
 # Lateral positions sampled across the central band, as fractions of its half
 # width: both edges and halfway to them (the centre line is sampled anyway).
@@ -64,6 +68,10 @@ CAUTION_SOURCE = "common practice: emergency lighting is life-safety equipment"
 
 def _finite(value: float) -> bool:
     return isinstance(value, int | float) and math.isfinite(value)
+
+
+def _on_plan(value: float) -> bool:
+    return _finite(value) and abs(value) <= MAX_PLAN_M
 
 
 @dataclass(frozen=True, slots=True)
@@ -94,16 +102,18 @@ class Route:
                 "points", "a route needs at least two points (its start and its end)"
             )
         for index, point in enumerate(points):
-            if len(point) != 2 or not all(_finite(value) for value in point):
+            if len(point) != 2 or not all(_on_plan(value) for value in point):
                 raise InvalidInput(
-                    "points", f"point {index + 1} must be two finite numbers, x and y in metres"
+                    "points",
+                    f"point {index + 1} must be two numbers, x and y in metres, within "
+                    f"{MAX_PLAN_M / 1000:.0f} km of the plan's origin",
                 )
         object.__setattr__(self, "points_m", tuple((float(x), float(y)) for x, y in points))
         if self.length_m <= 0:
             raise InvalidInput(
                 "points", "all the points are in the same place, so the route has no length"
             )
-        if not _finite(self.width_m) or self.width_m <= 0:
+        if not _finite(self.width_m) or not 0 < self.width_m <= MAX_PLAN_M:
             raise InvalidInput("width_m", "the route width must be more than 0 m")
 
     @property
@@ -152,18 +162,30 @@ class Luminaire:
     end_flux_factor: float = 1.0
 
     def __post_init__(self) -> None:
-        for name in ("x_m", "y_m", "axis_deg"):
-            if not _finite(getattr(self, name)):
-                raise InvalidInput(name, "must be a finite number")
+        for name in ("x_m", "y_m"):
+            if not _on_plan(getattr(self, name)):
+                raise InvalidInput(
+                    name,
+                    f"must be a number of metres within {MAX_PLAN_M / 1000:.0f} km of the origin",
+                )
+        if not _finite(self.axis_deg):
+            raise InvalidInput("axis_deg", "must be a finite number of degrees")
         if not _finite(self.mounting_height_m) or self.mounting_height_m <= 0:
             raise InvalidInput(
                 "mounting_height_m",
                 "the luminaire must be above the floor: give its height above floor level, "
                 "more than 0 m",
             )
-        if not _finite(self.emergency_flux_lm) or self.emergency_flux_lm < 0:
-            raise InvalidInput("emergency_flux_lm", "the emergency lumens must be 0 or more")
-        if not _finite(self.length_m) or self.length_m < 0:
+        if self.mounting_height_m > MAX_HEIGHT_M:
+            raise InvalidInput(
+                "mounting_height_m", f"a height above {MAX_HEIGHT_M:.0f} m is not a luminaire's"
+            )
+        if not _finite(self.emergency_flux_lm) or not 0 <= self.emergency_flux_lm <= MAX_FLUX_LM:
+            raise InvalidInput(
+                "emergency_flux_lm",
+                f"the emergency lumens must be 0 or more, and at most {MAX_FLUX_LM:,.0f}",
+            )
+        if not _finite(self.length_m) or not 0 <= self.length_m <= MAX_HEIGHT_M:
             raise InvalidInput("length_m", "the luminous length must be 0 (a point source) or more")
         if not _finite(self.end_flux_factor) or not 0 <= self.end_flux_factor <= 1:
             raise InvalidInput(
@@ -394,7 +416,8 @@ def route_matrices(
     ------
     InvalidInput
         ``step_m`` when the points times the luminaires exceed
-        :data:`MAX_MATRIX_ENTRIES`.
+        :data:`MAX_MATRIX_ENTRIES`; ``mounting_height_m`` when the sums
+        overflow (a luminaire almost on the floor).
 
     References
     ----------
@@ -410,10 +433,18 @@ def route_matrices(
             f"takes ({MAX_MATRIX_ENTRIES:,} point-luminaire pairs); use a larger step, or "
             "split the route into sections",
         )
+    centre_lx = illuminance_matrix_lx(samples.x_m, samples.y_m, luminaires)
+    band_lx = illuminance_matrix_lx(samples.band_x_m, samples.band_y_m, luminaires)
+    if not (np.all(np.isfinite(centre_lx)) and np.all(np.isfinite(band_lx))):
+        raise InvalidInput(
+            "mounting_height_m",
+            "the illuminance is too large to compute: a luminaire is mounted almost on the "
+            "floor, or its lumens are far too high",
+        )
     return RouteMatrices(
         samples=samples,
-        centre_lx=illuminance_matrix_lx(samples.x_m, samples.y_m, luminaires),
-        band_lx=illuminance_matrix_lx(samples.band_x_m, samples.band_y_m, luminaires),
+        centre_lx=centre_lx,
+        band_lx=band_lx,
         end_flux_factors=np.array([lum.end_flux_factor for lum in luminaires], dtype=float),
         default_distribution=np.array(
             [isinstance(lum.distribution, LambertianDistribution) for lum in luminaires],

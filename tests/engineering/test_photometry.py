@@ -491,6 +491,15 @@ def _with_line(number: int, text: str) -> str:
     return "\n".join(lines)
 
 
+def test_lm63_without_light_or_beyond_computing() -> None:
+    dark = "IES:LM-63-2019\n[TEST] T\nTILT=NONE\n1 -1 1 2 1 1 2 0 0 0\n1 1 10\n0 90\n0\n0 0\n"
+    with pytest.raises(Lm63FormatError, match="line 8: all candela values are 0"):
+        parse_lm63(dark)
+    huge = dark.replace("1 -1 1 2", "1 1e-300 1e300 2").replace("\n0 0\n", "\n1e10 0\n")
+    with pytest.raises(Lm63FormatError, match="line 4: .*too large to compute"):
+        parse_lm63(huge)
+
+
 @pytest.mark.parametrize(
     ("text", "pattern"),
     [

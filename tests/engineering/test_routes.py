@@ -71,8 +71,9 @@ def codes(result: RouteResult, severity: Severity) -> set[str]:
         (((0.0, 0.0),), 1.0, "points", "at least two points"),
         ((), 1.0, "points", "at least two points"),
         (((1.0, 1.0), (1.0, 1.0)), 1.0, "points", "no length"),
-        (((0.0, 0.0), (math.nan, 1.0)), 1.0, "points", "point 2 must be two finite numbers"),
+        (((0.0, 0.0), (math.nan, 1.0)), 1.0, "points", "point 2 must be two numbers"),
         (((0.0, 0.0), (1.0, 2.0, 3.0)), 1.0, "points", "point 2 must be two"),
+        (((0.0, 0.0), (2e5, 0.0)), 1.0, "points", "within 100 km"),
         (((0.0, 0.0), (5.0, 0.0)), 0.0, "width_m", "more than 0 m"),
         (((0.0, 0.0), (5.0, 0.0)), -1.0, "width_m", "more than 0 m"),
     ],
@@ -92,8 +93,11 @@ def test_route_geometry_errors(
         ({"mounting_height_m": -2.5}, "mounting_height_m", "above the floor"),
         ({"mounting_height_m": math.inf}, "mounting_height_m", "above the floor"),
         ({"emergency_flux_lm": -1.0}, "emergency_flux_lm", "0 or more"),
+        ({"emergency_flux_lm": 1e300}, "emergency_flux_lm", "at most 10,000,000"),
+        ({"mounting_height_m": 5000.0}, "mounting_height_m", "not a luminaire's"),
+        ({"y_m": -1e6}, "y_m", "within 100 km"),
         ({"length_m": -0.1}, "length_m", "0 \\(a point source\\) or more"),
-        ({"x_m": math.nan}, "x_m", "finite"),
+        ({"x_m": math.nan}, "x_m", "must be a number of metres"),
         ({"axis_deg": math.inf}, "axis_deg", "finite"),
         ({"end_flux_factor": 1.2}, "end_flux_factor", "between 0 and 1"),
     ],
@@ -104,6 +108,17 @@ def test_luminaire_errors(changes: dict[str, float], field: str, pattern: str) -
     with pytest.raises(InvalidInput, match=pattern) as caught:
         Luminaire(**fields)  # type: ignore[arg-type]
     assert caught.value.field == field
+
+
+def test_overflowing_sums_are_refused() -> None:
+    # 1e7 lm at 1e-160 m: E = I / h**2 overflows; refused, naming the height.
+    with pytest.raises(InvalidInput, match="almost on the floor") as caught:
+        evaluate_route(
+            Route(((0.0, 0.0), (10.0, 0.0)), 1.0),
+            [Luminaire(5.0, 0.0, 1e-160, 1e7)],
+            get_profile("us-egress"),
+        )
+    assert caught.value.field == "mounting_height_m"
 
 
 def test_step_and_maintenance_factor_errors() -> None:
