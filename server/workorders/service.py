@@ -23,6 +23,7 @@ from server.audit import service as audit
 from server.catalogue.models import BatteryPack, EmergencyModule
 from server.common.crud import get_owned
 from server.common.errors import Conflict, Forbidden, InvalidInput, NotFound
+from server.common.labels import label
 from server.config import Settings
 from server.db import utcnow
 from server.engineering import batteries, calculators
@@ -713,7 +714,7 @@ def _now_text(fixture: Fixture) -> str:
     wiring = "" if fixture.lamp_count == 1 else f", {fixture.wiring}"
     return (
         f"{lamps}{fixture.lamp_type} {fixture.lamp_w:g} W{wiring}; "
-        f"{fixture.ballast.replace('-', ' ')} ballast; {supply}{kit}"
+        f"{label(fixture.ballast, BallastTech).lower()} ballast; {supply}{kit}"
     )
 
 
