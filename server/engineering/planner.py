@@ -85,6 +85,8 @@ WINDOW_CORE_M = 20.0
 WINDOW_MARGIN_M = 8.0
 WINDOW_REL_GAP = 1e-2  # each stretch is a heuristic step: near-optimal is enough
 
+MAX_COST = 1e9  # our own plausibility limit per fixture; keeps totals finite
+
 PLANNER_SOURCE = "project method: 0/1 integer program solved by scipy.optimize.milp (HiGHS)"
 
 
@@ -667,8 +669,12 @@ def _validate(candidates: Sequence[Candidate], time_limit_s: float) -> None:
         if candidate.id in seen:
             raise InvalidInput("id", f"candidate ids must be unique; {candidate.id!r} repeats")
         seen.add(candidate.id)
-        if not math.isfinite(candidate.cost) or candidate.cost < 0:
-            raise InvalidInput("cost", f"the cost of {candidate.id!r} must be a number, 0 or more")
+        if not math.isfinite(candidate.cost) or not 0 <= candidate.cost <= MAX_COST:
+            raise InvalidInput(
+                "cost",
+                f"the cost of {candidate.id!r} must be a number, 0 or more and at most "
+                f"{MAX_COST:,.0f}",
+            )
     if not math.isfinite(time_limit_s) or time_limit_s <= 0:
         raise InvalidInput("time_limit_s", "the planner's time limit must be more than 0 s")
 

@@ -278,6 +278,8 @@ def test_planner_input_errors() -> None:
     with pytest.raises(InvalidInput, match="0 or more") as caught:
         plan_conversions(route, [Candidate("A", -1.0, lum)], profile)
     assert caught.value.field == "cost"
+    with pytest.raises(InvalidInput, match="at most 1,000,000,000"):
+        plan_conversions(route, [Candidate("A", 1e300, lum)], profile)
     with pytest.raises(InvalidInput, match="time limit"):
         plan_conversions(route, [Candidate("A", 1.0, lum)], profile, time_limit_s=0.0)
     with pytest.raises(InvalidInput, match="maintenance_factor"):
