@@ -133,7 +133,11 @@ def _totals_table(sheet: QuoteSheet, width_pt: float) -> Table:
     cells = [
         [
             pdf.para(label, "cell_bold" if label == "Total" else "cell"),
-            pdf.para(value, "cell_right"),
+            pdf.para(
+                pdf.bold(value) if label == "Total" else pdf.escape(value),
+                "cell_right",
+                markup=True,
+            ),
         ]
         for label, value in rows
     ]
