@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from tests.conftest import both_engines
 from tests.pages import csrf_token, field_error, parse
 from tests.planner_data import SERIES_FIXTURE, catalogue, survey
 
@@ -131,3 +132,25 @@ def test_the_cautions_are_on_the_proposal_pages(browser_session_as, client_as) -
         cautions = parse(browser.get(path).text).find(class_="cautions").text()
         assert "isolate the supply AND unplug the pack" in cautions
         assert "qualified person" in cautions
+
+
+@both_engines
+def test_each_role_sees_what_waits_for_it_at_home(browser_session_as, client_as) -> None:
+    items, made, second = _two_fixtures(client_as)
+    estimator = client_as("estimator")
+    proposal = estimator.put(
+        f"/api/v1/fixtures/{made['fixture']['id']}/proposal",
+        json={"module_id": items["both"]["id"], "pack_id": items["big"]["id"]},
+    ).json()
+    estimator.post(
+        f"/api/v1/fixtures/{made['fixture']['id']}/proposal/accept",
+        json={"version": proposal["version"]},
+    )
+    queue = parse(browser_session_as("estimator").get("/").text).find(id="queue-title").parent
+    cells = [cell.text() for cell in queue.find("tbody").find_all("td")]
+    assert cells == ["1", "0", "1"]  # no proposal, draft, accepted not quoted
+    surveyor = parse(browser_session_as("surveyor").get("/").text)
+    assert surveyor.find_all(id="queue-title") == []
+    assert "Corridor 1" in surveyor.find(id="survey-title").parent.text()
+    supervisor = parse(browser_session_as("supervisor").get("/").text)
+    assert "No quote is waiting for approval." in supervisor.find(id="quotes-title").parent.text()
