@@ -42,8 +42,10 @@ def include_routers(app: FastAPI) -> None:
     from server.catalogue import api as catalogue_api
     from server.catalogue import pages as catalogue_pages
     from server.escape import api as escape_api
+    from server.escape import pages as escape_pages
     from server.maintenance import api as maintenance_api
     from server.maintenance import pages as maintenance_pages
+    from server.offline import pages as offline_pages
     from server.proposals import api as proposals_api
     from server.proposals import pages as proposals_pages
     from server.quotes import api as quotes_api
@@ -63,12 +65,14 @@ def include_routers(app: FastAPI) -> None:
     app.include_router(catalogue_pages.router)
     app.include_router(calc_api.router)
     app.include_router(escape_api.router)
+    app.include_router(escape_pages.router)
     app.include_router(quotes_api.router)
     app.include_router(workorders_api.router)
     app.include_router(quotes_pages.router)
     app.include_router(workorders_pages.router)
     app.include_router(maintenance_api.router)
     app.include_router(maintenance_pages.router)
+    app.include_router(offline_pages.router)
 
 
 def _field_named_in(message: str) -> str | None:

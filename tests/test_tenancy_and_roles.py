@@ -51,6 +51,10 @@ ROUTE_RULES: dict[tuple[str, str], str | Role] = {
     ("GET", "/api/v1/fixtures/{record_id}"): S,
     ("PATCH", "/api/v1/fixtures/{record_id}"): S,
     ("DELETE", "/api/v1/fixtures/{record_id}"): S,
+    ("GET", "/sw.js"): PUBLIC,
+    ("GET", "/offline/rules/fixture.json"): PUBLIC,
+    ("GET", "/offline/session"): ANY,
+    ("GET", "/offline/changes"): S,
 }
 for _kind in ("ballast-types", "modules", "packs"):
     ROUTE_RULES[("GET", f"/api/v1/catalogue/{_kind}")] = S
