@@ -18,6 +18,8 @@ def normalise_email(email: str) -> str:
 
 def authenticate(*, session: Session, email: str, password: str) -> User | None:
     """The active user with this email and password, or None (same time either way)."""
+    if "\x00" in email:
+        email = ""  # no account has it; PostgreSQL would refuse the query outright
     user = session.scalar(select(User).where(User.email == normalise_email(email)))
     ok = verify_password(user.password_hash if user else None, password)
     if user is None or not ok or not user.active:

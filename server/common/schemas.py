@@ -6,7 +6,14 @@ import uuid
 from datetime import datetime
 from typing import Annotated, Any, Generic, TypeVar
 
-from pydantic import BaseModel, ConfigDict, Field, StringConstraints, create_model
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    StringConstraints,
+    create_model,
+    field_validator,
+)
 from pydantic.fields import FieldInfo
 
 Item = TypeVar("Item")
@@ -18,9 +25,28 @@ Money = Annotated[float, Field(ge=0, le=1_000_000)]
 
 
 class StrictModel(BaseModel):
-    """Unknown fields are refused with 422 rather than silently dropped."""
+    """Input shapes: unknown fields and NUL characters are refused with 422.
+
+    PostgreSQL cannot store a NUL in text, and no field has a use for one, so
+    it is refused here for every engine alike instead of failing at the database.
+    """
 
     model_config = ConfigDict(extra="forbid")
+
+    @field_validator("*", mode="after")
+    @classmethod
+    def _no_nul_characters(cls, value: Any) -> Any:
+        if _has_nul(value):
+            raise ValueError("text may not contain a NUL character (\\x00)")
+        return value
+
+
+def _has_nul(value: Any) -> bool:
+    if isinstance(value, str):
+        return "\x00" in value
+    if isinstance(value, list | tuple | set):
+        return any(_has_nul(item) for item in value)
+    return False
 
 
 class CreateBase(StrictModel):

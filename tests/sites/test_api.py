@@ -152,3 +152,12 @@ def test_catalogue_module_validation(client_as) -> None:
     assert "battery_w" in errors
     pack = {"name": "Pack 4.8 V", "chemistry": "NiCd", "cells": 4, "capacity_ah": 0}
     assert "capacity_ah" in _errors(api.post("/api/v1/catalogue/packs", json=pack))
+
+
+@both_engines
+def test_nul_characters_are_refused_on_every_engine(client_as) -> None:
+    api = client_as("surveyor")
+    answer = api.post("/api/v1/buildings", json={"name": "Block\x00A"})
+    assert "name" in _errors(answer)
+    token = api.post("/api/v1/auth/token", data={"username": "a\x00@x.test", "password": "x"})
+    assert token.status_code == 401
