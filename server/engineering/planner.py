@@ -78,6 +78,10 @@ INITIAL_ROW_SPACING_M = 1.0
 # rolling horizon goes to a linear-relaxation bound when the solver gave none.
 EXACT_TIME_SHARE = 0.4
 BOUND_TIME_SHARE = 0.1
+# The relaxation gets at least this long, past the limit if need be, so that a
+# fallback answer always states its gap where it can (a loaded machine may
+# leave the solver no time to prove any bound).
+MIN_BOUND_TIME_S = 1.0
 # Rolling horizon: stretches solved one at a time, with candidates this far
 # beyond them. Our own tuning: a few mounting heights, beyond which a
 # luminaire adds little light.
@@ -633,7 +637,9 @@ def _solve(
     if max(bounds, default=0.0) <= 0.0:  # no bound, or only the trivial one
         remaining_s = started + time_limit_s - time.monotonic()
         some_rows = _initial_rows(rows, kept_rows, requirements.anchor, greedy, initial_stride)
-        relaxed = _lower_bound(rows[some_rows], costs, target[some_rows], max(remaining_s, 0.1))
+        relaxed = _lower_bound(
+            rows[some_rows], costs, target[some_rows], max(remaining_s, MIN_BOUND_TIME_S)
+        )
         bounds.extend([] if relaxed is None else [relaxed])
     return _Solution(chosen, False, max(bounds, default=None), method)
 
