@@ -14,6 +14,7 @@ from fastapi.responses import FileResponse, HTMLResponse, JSONResponse
 
 from server.deps import CurrentUser, SurveyorUser
 from server.offline import service
+from server.sites import service as sites_service
 from server.sites.schemas import FixtureCreate
 from server.templating import ROOT, render
 
@@ -35,8 +36,11 @@ def service_worker() -> FileResponse:
 
 @router.get("/offline/rules/fixture.json")
 def fixture_rules() -> dict[str, Any]:
-    """The limits of the fixture create schema, for checking a form offline."""
-    return {"fields": service.field_rules(schema=FixtureCreate)}
+    """The limits of the fixture create schema, and of a copy request, for working offline."""
+    return {
+        "fields": service.field_rules(schema=FixtureCreate),
+        "max_copies": sites_service.MAX_COPIES,
+    }
 
 
 @router.get("/offline/session")

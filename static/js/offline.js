@@ -32,6 +32,8 @@
   var UUID_PATH = "[0-9a-f-]{36}";
   var AREA_PAGE = new RegExp("^/areas/(" + UUID_PATH + ")$");
   var BUILDING_PAGE = new RegExp("^/buildings/(" + UUID_PATH + ")$");
+  var COPIES_ACTION = new RegExp("^/areas/(" + UUID_PATH + ")/fixtures/copies$");
+  var RULES_URL = "/offline/rules/fixture.json";
   var PENDING = ["waiting", "sending"];
   var ATTENTION = ["conflict", "invalid", "refused"];
   // The page's own wording of a pattern the schema only states as a regular expression.
@@ -44,6 +46,7 @@
   var running = null;
   var lastReport = "";
   var rulesCache = {};
+  var maxCopies = 50;
 
   // ---------------------------------------------------------------- storage
 
@@ -467,7 +470,10 @@
           }
           return response.json();
         })
-        .then(function (data) { return data.fields; })
+        .then(function (data) {
+          maxCopies = data.max_copies || maxCopies;
+          return data.fields;
+        })
         .catch(function (error) {
           delete rulesCache[url];
           throw error;
@@ -780,6 +786,11 @@
     if (method !== "post") {
       return;
     }
+    var copies = COPIES_ACTION.exec(form.getAttribute("action") || "");
+    if (copies && bar) {
+      submitCopies(event, form, copies[1]);
+      return;
+    }
     if (!navigator.onLine) {
       event.preventDefault();
       pageMessage("No connection: this needs the server, so nothing was sent and nothing changed. " +
@@ -789,6 +800,174 @@
     }
     if ((form.getAttribute("action") || "") === "/signout") {
       signOut(event, form);
+    }
+  }
+
+  // ---------------------------------------------------------------- repeat last, add copies
+
+  function shownRaw(values) {
+    var raw = {};
+    Object.keys(values).forEach(function (name) {
+      var value = values[name];
+      raw[name] = value === null || value === undefined ? "" : String(value);
+    });
+    return raw;
+  }
+
+  function serverRows() {
+    return Array.prototype.filter.call(document.querySelectorAll(".rows > .row > a[href^='/fixtures/']"),
+      function (link) { return !link.closest("#offline-area-waiting"); });
+  }
+
+  // The area's last fixture, as repeat-last copies it: the newest kept on this
+  // tablet, else the last in the list (read from its kept fixture page).
+  function lastOfArea(areaId, entries) {
+    var creates = entries.filter(function (entry) { return entry.kind === "create" && entry.areaId === areaId; });
+    if (creates.length) {
+      var last = creates[creates.length - 1];
+      return Promise.resolve({ values: last.values, labels: last.labels, options: last.options });
+    }
+    var rows = serverRows();
+    if (!rows.length) {
+      return Promise.resolve(null);
+    }
+    var page = fetch(rows[rows.length - 1].getAttribute("href"), {
+      credentials: "same-origin", headers: { Accept: "text/html" }
+    }).then(function (response) { return response.ok ? response.text() : ""; });
+    return Promise.all([page, loadRules(RULES_URL)]).then(function (found) {
+      var doc = new DOMParser().parseFromString(found[0], "text/html");
+      var form = doc.querySelector("form[data-offline-form]");
+      if (!form) {
+        return null;
+      }
+      var checked = convert(rawValues(form, found[1]), found[1]);
+      if (Object.keys(checked.errors).length) {
+        return null;
+      }
+      var words = describe(form, found[1]);
+      return { values: checked.values, labels: words.labels, options: words.options };
+    });
+  }
+
+  function tagsOfArea(areaId, entries) {
+    var taken = {};
+    serverRows().forEach(function (link) {
+      var tag = link.querySelector(".row-tag");
+      if (tag) {
+        taken[tag.textContent.trim()] = true;
+      }
+    });
+    entries.forEach(function (entry) {
+      if (entry.kind === "create" && entry.areaId === areaId) {
+        taken[entry.tag] = true;
+      }
+    });
+    return taken;
+  }
+
+  function keepCopies(form, areaId) {
+    var countField = form.elements.namedItem("count");
+    var text = String(countField ? countField.value : "1").trim();
+    return Promise.all([allEntries(), loadRules(RULES_URL)]).then(function (found) {
+      var entries = mine(found[0]);
+      var count = /^\d+$/.test(text) ? parseInt(text, 10) : NaN;
+      if (!(count >= 1 && count <= maxCopies)) {
+        pageMessage("Nothing was added: enter a whole number from 1 to " + maxCopies + ".", "error");
+        return null;
+      }
+      return lastOfArea(areaId, entries).then(function (source) {
+        if (!source) {
+          pageMessage("Nothing was added: survey one fixture first, or open the last one once with a " +
+            "connection so this tablet keeps it.", "error");
+          return null;
+        }
+        var taken = tagsOfArea(areaId, entries);
+        var tag = source.values.tag;
+        var crumb = document.querySelector(".crumbs a[href^='/buildings/']");
+        var heading = document.querySelector("main h1");
+        var now = Date.now();
+        var made = [];
+        for (var index = 0; index < count; index += 1) {
+          tag = nextTag(tag, taken);
+          taken[tag] = true;
+          var values = {};
+          Object.keys(source.values).forEach(function (name) { values[name] = source.values[name]; });
+          values.tag = tag;
+          made.push({
+            kind: "create",
+            recordId: newUuid(),
+            areaId: areaId,
+            areaName: heading ? heading.textContent.trim() : "",
+            buildingName: crumb ? crumb.textContent.trim() : "",
+            userId: currentUser(),
+            savedAt: now,
+            updatedAt: now,
+            attempts: 0,
+            url: "/api/v1/areas/" + areaId + "/fixtures",
+            values: values,
+            raw: shownRaw(values),
+            labels: source.labels,
+            options: source.options,
+            tag: tag,
+            state: "waiting"
+          });
+        }
+        return made.reduce(function (chain, entry) {
+          return chain.then(function () { return putEntry(entry); });
+        }, Promise.resolve()).then(function () {
+          rememberStorage();
+          announce();
+          return made;
+        });
+      });
+    });
+  }
+
+  function submitCopies(event, form, areaId) {
+    event.preventDefault();
+    if (form.getAttribute("data-offline-busy") === "yes") {
+      return;
+    }
+    form.setAttribute("data-offline-busy", "yes");
+    var route = navigator.onLine ? probe().then(function (result) { return result.status; }) : Promise.resolve("offline");
+    route.then(function (status) {
+      if (status === "online") {
+        form.removeAttribute("data-offline-busy");
+        form.setAttribute("data-offline-pass", "yes");
+        form.requestSubmit(event.submitter || undefined);
+        return null;
+      }
+      setConnection(status);
+      return keepCopies(form, areaId).then(function (made) {
+        form.removeAttribute("data-offline-busy");
+        if (!made) {
+          return;
+        }
+        var first = made[0].tag;
+        var last = made[made.length - 1].tag;
+        flash((made.length === 1 ? "Fixture " + first + " added" : made.length + " fixtures added: " + first +
+          " to " + last) + " on this tablet. They are sent when the connection returns; their checks run then.");
+        window.location.assign(window.location.pathname);
+      });
+    }).catch(function () {
+      form.removeAttribute("data-offline-busy");
+      pageMessage("This tablet's storage refused the copies. Nothing was added.", "error");
+    });
+  }
+
+  // With fixtures kept here, the repeat button names the tablet's last one.
+  function relabelRepeat(areaId, entries) {
+    var creates = entries.filter(function (entry) { return entry.kind === "create" && entry.areaId === areaId; });
+    var button = document.getElementById("repeat-last");
+    if (!creates.length || !button) {
+      return;
+    }
+    var last = creates[creates.length - 1].tag;
+    var next = nextTag(last, tagsOfArea(areaId, entries));
+    button.textContent = "Repeat last fixture (" + last + " → " + next + ")";
+    var label = document.querySelector("label[for='copy-count']");
+    if (label) {
+      label.textContent = "Add identical copies of " + last + ":";
     }
   }
 
@@ -982,6 +1161,7 @@
       if (status === 404 || (status === 403 && !/CSRF/i.test(String(data && data.detail)))) {
         report.problems += 1;
         return setState(entry, "refused", {
+          refusedStatus: status,
           message: status === 404
             ? (entry.kind === "create"
               ? "The area this fixture belongs to is no longer on the server."
@@ -1186,6 +1366,18 @@
     var forget = tellWorker({ type: "forget" });
     var limit = new Promise(function (resolve) { window.setTimeout(resolve, 1500); });
     return Promise.race([forget, limit]);
+  }
+
+  // Pages kept for someone else who used this tablet before are not kept for this user.
+  function forgetAnotherUsersPages() {
+    return getMeta("pagesUser").then(function (user) {
+      if (user === currentUser()) {
+        return null;
+      }
+      return (user ? forgetPages() : Promise.resolve()).then(function () {
+        return setMeta("pagesUser", currentUser());
+      });
+    }).catch(function () { return null; });
   }
 
   function warmThisPage() {
@@ -1557,7 +1749,7 @@
       actions.appendChild(editAnchor(entry, "Correct it", "button primary"));
       actions.appendChild(actionButton("Remove from this tablet", "remove", entry, "danger"));
     } else if (entry.state === "refused") {
-      if (entry.kind === "edit") {
+      if (entry.kind === "edit" && entry.refusedStatus === 404) {
         actions.appendChild(actionButton("Save it as a new fixture", "as-new", entry, "primary"));
       }
       actions.appendChild(actionButton("Remove from this tablet", "remove", entry, "danger"));
@@ -1641,6 +1833,7 @@
       }
       if (areaMatch) {
         renderAreaWaiting(areaMatch[1], mine(found[0]));
+        relabelRepeat(areaMatch[1], mine(found[0]));
       }
     }).catch(function () { return null; });
   }
@@ -1737,7 +1930,7 @@
 
   window.PlannerOffline = {
     check: function (raw) {
-      return loadRules("/offline/rules/fixture.json").then(function (rules) { return convert(raw, rules).errors; });
+      return loadRules(RULES_URL).then(function (rules) { return convert(raw, rules).errors; });
     },
     syncNow: syncNow,
     entries: allEntries
@@ -1805,7 +1998,7 @@
   renderPageLists();
   registerWorker().then(function (registration) {
     if (registration && navigator.onLine) {
-      warmThisPage();
+      forgetAnotherUsersPages().then(warmThisPage);
     }
   });
   if (navigator.onLine) {
