@@ -7,7 +7,6 @@ read the catalogue; an estimator or above changes it.
 
 from __future__ import annotations
 
-import uuid
 from collections.abc import Callable
 from dataclasses import dataclass
 from decimal import Decimal
@@ -286,8 +285,7 @@ def _create(request: Request, kind: Kind, session: Session, user: User, form: Fo
         record, _ = forms.create_from_form(session, kind.resource, user=user, body=body)
     except Conflict as exc:
         session.rollback()
-        view.notice = f"{exc.message} Nothing new was saved; press Save to add it as a new one."
-        view.record_id = str(uuid.uuid4())
+        view = forms.show_id_taken(view, exc)
         return _form_page(request, kind, view)
     return RedirectResponse(f"/catalogue/{kind.slug}#item-{record.id}", status_code=303)
 

@@ -300,6 +300,17 @@ def show_conflict(view: FormView, conflict: Conflict) -> FormView:
     return view
 
 
+def show_id_taken(view: FormView, conflict: Conflict) -> FormView:
+    """A create whose client UUID already names another record: keep the input, new UUID.
+
+    (The same form sent again with the same values is not this case: it answers
+    the stored record.)
+    """
+    view.notice = f"{conflict.message} Nothing new was saved; press Save to add it as a new one."
+    view.record_id = str(uuid.uuid4())
+    return view
+
+
 def _same(stored: Any, typed: Any) -> bool:
     if isinstance(stored, list) or isinstance(typed, list):
         return sorted(stored or []) == sorted(typed or [])

@@ -8,7 +8,7 @@ values; the templates compute nothing.
 from __future__ import annotations
 
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 from urllib.parse import urlencode, urlsplit
@@ -657,54 +657,25 @@ def save_proposal_page(
     return RedirectResponse(f"/fixtures/{fixture.id}/proposal?done=saved", status_code=303)
 
 
-@router.post("/fixtures/{fixture_id}/proposal/suggest")
-def suggest_page(
+def _row_action(
     request: Request,
-    fixture_id: str,
-    session: SessionDep,
-    user: EstimatorUser,
-    form: FormData = FormDep,
+    session: Session,
+    user: User,
+    fixture: Fixture,
+    form: FormData,
+    *,
+    act: Callable[[], str],
+    done: str,
+    reason: str = "",
 ) -> Response:
-    fixture = service.fixture_of(session=session, org_id=user.org_id, fixture_id=fixture_id)
-    try:
-        suggestion, proposal = service.apply_suggestion(
-            session=session, user=user, fixture_id=fixture.id, version=_version(form)
-        )
-    except Conflict as exc:
-        session.rollback()
-        if _is_htmx(request):
-            return _row_response(
-                request, session, user, fixture, error=exc.message, status_code=409
-            )
-        return _proposal_page(request, session, user, fixture, notice=exc.message, status_code=409)
-    note = "" if proposal is not None else suggestion.explanation
-    if _is_htmx(request):
-        return _row_response(request, session, user, fixture, note=note)
-    if proposal is None:
-        return _proposal_page(
-            request, session, user, fixture, notice=suggestion.explanation, notice_kind="info"
-        )
-    return _after(request, fixture.id, form, "suggested")
+    """Run a row's button (suggest, accept, un-accept) and answer as the page asked.
 
-
-@router.post("/fixtures/{fixture_id}/proposal/accept")
-def accept_page(
-    request: Request,
-    fixture_id: str,
-    session: SessionDep,
-    user: EstimatorUser,
-    form: FormData = FormDep,
-) -> Response:
-    fixture = service.fixture_of(session=session, org_id=user.org_id, fixture_id=fixture_id)
-    reason = str(form.get("override_reason") or "")
+    ``act`` returns a note for the user ("" when all went as asked). htmx gets
+    the fixture's row back, with the note or the refusal in it; a plain form
+    gets the next page, or the proposal page again with the message.
+    """
     try:
-        service.accept(
-            session=session,
-            user=user,
-            fixture_id=fixture.id,
-            version=_version(form) or 0,
-            override_reason=reason,
-        )
+        note = act()
     except InvalidInput as exc:
         if _is_htmx(request):
             return _row_response(
@@ -729,8 +700,55 @@ def accept_page(
             request, session, user, fixture, notice=exc.message, reason=reason, status_code=409
         )
     if _is_htmx(request):
-        return _row_response(request, session, user, fixture)
-    return _after(request, fixture.id, form, "accepted")
+        return _row_response(request, session, user, fixture, note=note)
+    if note:
+        return _proposal_page(request, session, user, fixture, notice=note, notice_kind="info")
+    return _after(request, fixture.id, form, done)
+
+
+@router.post("/fixtures/{fixture_id}/proposal/suggest")
+def suggest_page(
+    request: Request,
+    fixture_id: str,
+    session: SessionDep,
+    user: EstimatorUser,
+    form: FormData = FormDep,
+) -> Response:
+    fixture = service.fixture_of(session=session, org_id=user.org_id, fixture_id=fixture_id)
+
+    def act() -> str:
+        suggestion, proposal = service.apply_suggestion(
+            session=session, user=user, fixture_id=fixture.id, version=_version(form)
+        )
+        return "" if proposal is not None else suggestion.explanation
+
+    return _row_action(request, session, user, fixture, form, act=act, done="suggested")
+
+
+@router.post("/fixtures/{fixture_id}/proposal/accept")
+def accept_page(
+    request: Request,
+    fixture_id: str,
+    session: SessionDep,
+    user: EstimatorUser,
+    form: FormData = FormDep,
+) -> Response:
+    fixture = service.fixture_of(session=session, org_id=user.org_id, fixture_id=fixture_id)
+    reason = str(form.get("override_reason") or "")
+
+    def act() -> str:
+        service.accept(
+            session=session,
+            user=user,
+            fixture_id=fixture.id,
+            version=_version(form) or 0,
+            override_reason=reason,
+        )
+        return ""
+
+    return _row_action(
+        request, session, user, fixture, form, act=act, done="accepted", reason=reason
+    )
 
 
 @router.post("/fixtures/{fixture_id}/proposal/unaccept")
@@ -742,20 +760,14 @@ def unaccept_page(
     form: FormData = FormDep,
 ) -> Response:
     fixture = service.fixture_of(session=session, org_id=user.org_id, fixture_id=fixture_id)
-    try:
+
+    def act() -> str:
         service.unaccept(
             session=session, user=user, fixture_id=fixture.id, version=_version(form) or 0
         )
-    except Conflict as exc:
-        session.rollback()
-        if _is_htmx(request):
-            return _row_response(
-                request, session, user, fixture, error=exc.message, status_code=409
-            )
-        return _proposal_page(request, session, user, fixture, notice=exc.message, status_code=409)
-    if _is_htmx(request):
-        return _row_response(request, session, user, fixture)
-    return _after(request, fixture.id, form, "unaccepted")
+        return ""
+
+    return _row_action(request, session, user, fixture, form, act=act, done="unaccepted")
 
 
 @router.post("/fixtures/{fixture_id}/proposal/recheck")

@@ -162,8 +162,7 @@ def create_building(
         record, _ = forms.create_from_form(session, sites_api.BUILDINGS, user=user, body=body)
     except Conflict as exc:
         session.rollback()
-        view.notice = f"{exc.message} Nothing new was saved; press Save to add it as a new one."
-        view.record_id = str(uuid.uuid4())
+        view = forms.show_id_taken(view, exc)
         return _building_form(request, view)
     return _redirect(f"/buildings/{record.id}")
 
@@ -290,8 +289,7 @@ def create_area(
         )
     except Conflict as exc:
         session.rollback()
-        view.notice = f"{exc.message} Nothing new was saved; press Save to add it as a new one."
-        view.record_id = str(uuid.uuid4())
+        view = forms.show_id_taken(view, exc)
         return _area_form(request, session, user, view, building=building)
     return _redirect(f"/areas/{record.id}")
 
@@ -589,8 +587,7 @@ def create_fixture(
         )
     except Conflict as exc:
         session.rollback()
-        view.notice = f"{exc.message} Nothing new was saved; press Save to add it as a new one."
-        view.record_id = str(uuid.uuid4())
+        view = forms.show_id_taken(view, exc)
         return _fixture_form(request, session, user, view, area=area, body=body, form=form)
     return _redirect(f"/areas/{area.id}?saved={record.id}")
 

@@ -31,13 +31,13 @@ def test_surveyor_builds_a_corridor_and_sees_the_series_rule(page_as: Any, site:
     """
     page = page_as("surveyor", "820x1180")
     page.get_by_role("link", name="Buildings").first.click()
-    page.get_by_role("link", name="New building").click()
+    page.get_by_role("link", name="New building", exact=True).click()
     page.get_by_label("Building name").fill("Harbour House")
     page.get_by_label("Address").fill("7 Quay Lane")
     page.get_by_role("button", name="Save building").click()
     expect(page.get_by_role("heading", name="Harbour House")).to_be_visible()
 
-    page.get_by_role("link", name="New area").click()
+    page.get_by_role("link", name="New area", exact=True).click()
     page.get_by_label("Area name").fill("Ground floor corridor")
     page.get_by_role("button", name="Save area").click()
     expect(page.get_by_role("heading", name="Ground floor corridor")).to_be_visible()
@@ -52,9 +52,9 @@ def test_surveyor_builds_a_corridor_and_sees_the_series_rule(page_as: Any, site:
     page.get_by_role("button", name="Save fixture").click()
     expect(page.locator(".notice.success")).to_have_text("Fixture T-01 saved.")
 
-    for _ in range(5):
+    for number in range(2, 7):
         page.get_by_role("button", name=re.compile("Repeat last fixture")).click()
-        expect(page.locator(".notice.success")).to_be_visible()
+        expect(page.locator(".notice.success")).to_have_text(f"Fixture T-0{number} added.")
     tags = page.locator(".rows .row-tag").all_inner_texts()
     assert tags == ["T-01", "T-02", "T-03", "T-04", "T-05", "T-06"]
     assert no_horizontal_scroll(page)

@@ -293,3 +293,23 @@ def test_the_cautions_are_on_the_area_and_fixture_pages(browser_session_as, clie
         cautions = parse(browser.get(path).text).find(class_="cautions").text()
         assert "unplug the pack" in cautions and "several hundred volts" in cautions
         assert "cadmium" in cautions
+
+
+def test_a_changed_form_sent_with_a_used_id_saves_nothing_and_offers_a_new_one(
+    browser_session_as, client_as
+) -> None:
+    area_id = survey(client_as("surveyor"))["area"]["id"]
+    browser = browser_session_as("surveyor")
+    form = _fixture_form("T-20")
+    assert _post(browser, f"/areas/{area_id}/fixtures/new", form).status_code == 303
+    answer = _post(browser, f"/areas/{area_id}/fixtures/new", {**form, "tag": "T-21"})
+    assert answer.status_code == 409
+    page = parse(answer.text)
+    assert "exists with other values" in page.find(class_="notice").text()
+    assert field_value(page, "tag") == "T-21"
+    assert page.find("input", name="id").attrs["value"] != form["id"]
+    tags = [
+        i["tag"]
+        for i in client_as("surveyor").get(f"/api/v1/areas/{area_id}/fixtures").json()["items"]
+    ]
+    assert "T-21" not in tags
