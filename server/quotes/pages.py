@@ -9,6 +9,7 @@ shown again with the user's input and the message beside the field.
 from __future__ import annotations
 
 import uuid
+from collections.abc import Callable
 from typing import Any
 
 from fastapi import APIRouter, Request
@@ -226,25 +227,36 @@ def _apply(
     user: User,
     quote_id: str,
     view: FormView,
-    action: Any,
-    form_key: str,
-    **extra: Any,
+    action: Callable[[], object],
+    shown_as: Callable[[FormView], dict[str, Any]],
+    *,
+    field: str | None = None,
+    then: str = "",
 ) -> Response:
-    """Run a change; on a refusal show the builder again with the form as typed."""
+    """Run a change; on a refusal show the builder again with the form as typed.
+
+    ``shown_as`` says where the form goes back in the builder; ``field`` names
+    the field an InvalidInput is shown beside when the service names another.
+    """
     try:
         action()
     except (Conflict, Forbidden, InvalidInput) as exc:
         session.rollback()
         status_code, message = _refused(exc)
         if isinstance(exc, InvalidInput):
-            view.errors[exc.field] = forms.sentence(exc.message)
+            view.errors[field or exc.field] = forms.sentence(exc.message)
         if isinstance(exc, Conflict):
             view = forms.show_conflict(view, exc)
-        context = {form_key: view, **extra}
         return _builder(
-            request, session, user, quote_id, status_code=status_code, notice=message, **context
+            request,
+            session,
+            user,
+            quote_id,
+            status_code=status_code,
+            notice=message,
+            **shown_as(view),
         )
-    return _redirect(f"/quotes/{quote_id}")
+    return _redirect(f"/quotes/{quote_id}{then}")
 
 
 @router.post("/quotes/{quote_id}/settings")
@@ -266,7 +278,7 @@ def update_settings(
         quote_id,
         view,
         lambda: service.update_settings(session=session, user=user, quote_id=quote_id, body=body),
-        "settings",
+        lambda shown: {"settings": shown},
     )
 
 
@@ -289,7 +301,8 @@ def add_line(
         quote_id,
         view,
         lambda: service.add_line(session=session, user=user, quote_id=quote_id, body=body),
-        "new_line",
+        lambda shown: {"new_line": shown},
+        then="#lines",
     )
 
 
@@ -309,39 +322,18 @@ def update_line(
         return _builder(
             request, session, user, quote_id, status_code=422, line_forms={line_id: view}
         )
-    return _line_change(request, session, user, quote_id, line_id, view, body)
-
-
-def _line_change(
-    request: Request,
-    session: Session,
-    user: User,
-    quote_id: str,
-    line_id: str,
-    view: FormView,
-    body: schemas.LineUpdate,
-) -> Response:
-    try:
-        service.update_line(
+    return _apply(
+        request,
+        session,
+        user,
+        quote_id,
+        view,
+        lambda: service.update_line(
             session=session, user=user, quote_id=quote_id, line_id=line_id, body=body
-        )
-    except (Conflict, InvalidInput) as exc:
-        session.rollback()
-        status_code, message = _refused(exc)
-        if isinstance(exc, InvalidInput):
-            view.errors[exc.field] = forms.sentence(exc.message)
-        else:
-            view.notice = message
-        return _builder(
-            request,
-            session,
-            user,
-            quote_id,
-            status_code=status_code,
-            line_forms={line_id: view},
-            notice=message,
-        )
-    return _redirect(f"/quotes/{quote_id}#line-{line_id}")
+        ),
+        lambda shown: {"line_forms": {line_id: shown}},
+        then=f"#line-{line_id}",
+    )
 
 
 @router.post("/quotes/{quote_id}/lines/{line_id}/delete")
@@ -383,35 +375,16 @@ def add_override(
         return _builder(
             request, session, user, quote_id, status_code=422, override_forms={fixture_id: view}
         )
-    return _override_change(request, session, user, quote_id, fixture_id, view, body)
-
-
-def _override_change(
-    request: Request,
-    session: Session,
-    user: User,
-    quote_id: str,
-    fixture_id: str,
-    view: FormView,
-    body: schemas.OverrideCreate,
-) -> Response:
-    try:
-        service.add_override(session=session, user=user, quote_id=quote_id, body=body)
-    except (Conflict, InvalidInput) as exc:
-        session.rollback()
-        status_code, message = _refused(exc)
-        if isinstance(exc, InvalidInput):
-            view.errors["reason"] = forms.sentence(exc.message)
-        return _builder(
-            request,
-            session,
-            user,
-            quote_id,
-            status_code=status_code,
-            override_forms={fixture_id: view},
-            notice=message,
-        )
-    return _redirect(f"/quotes/{quote_id}")
+    return _apply(
+        request,
+        session,
+        user,
+        quote_id,
+        view,
+        lambda: service.add_override(session=session, user=user, quote_id=quote_id, body=body),
+        lambda shown: {"override_forms": {fixture_id: shown}},
+        field="reason",
+    )
 
 
 @router.post("/quotes/{quote_id}/transitions")
