@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import gc
 from collections.abc import AsyncIterator, Awaitable, Callable
 from contextlib import asynccontextmanager
 from typing import Any
@@ -156,6 +157,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
+        # What start-up built (routes, schemas, templates) lives as long as the
+        # process: keep it out of the garbage collector's walks, which otherwise
+        # add 100 ms and more to the slowest requests.
+        gc.freeze()
         yield
         engine.dispose()
 

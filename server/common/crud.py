@@ -12,6 +12,7 @@ from typing import Any, TypeVar
 
 from sqlalchemy import ColumnElement, func, select
 from sqlalchemy.orm import Session
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm.exc import StaleDataError
 
 from server.accounts.models import User
@@ -150,6 +151,7 @@ def update_versioned(
 
 
 def delete_owned(session: Session, record: OrgOwned, *, user: User) -> None:
+    """Delete a record; one that other records still point at is refused (409)."""
     audit.record(
         session=session,
         user=user,
@@ -159,4 +161,11 @@ def delete_owned(session: Session, record: OrgOwned, *, user: User) -> None:
         action="delete",
     )
     session.delete(record)
-    session.commit()
+    try:
+        session.commit()
+    except IntegrityError:
+        session.rollback()
+        raise Conflict(
+            "This record is still in use (a proposal, quote or work order refers to it), "
+            "so it was not deleted. Change those first."
+        ) from None

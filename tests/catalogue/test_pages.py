@@ -117,3 +117,26 @@ def test_a_surveyor_reads_the_catalogue_but_cannot_change_it(browser_session_as,
     assert not listing.find("table").find_all("a")
     assert _post(browser, "/catalogue/modules/new", _module_form()).status_code == 403
     assert browser.get("/catalogue/nothing-here").status_code == 404
+
+
+def test_deleting_a_module_in_use_answers_409_and_keeps_it(client_as) -> None:
+    from tests.test_tenancy_and_roles import FIXTURE, MODULE
+
+    api = client_as("estimator")
+    module = api.post("/api/v1/catalogue/modules", json=MODULE).json()
+    pack = api.post(
+        "/api/v1/catalogue/packs",
+        json={"name": "Pack", "chemistry": "NiCd", "cells": 4, "capacity_ah": 4.0},
+    ).json()
+    building = api.post("/api/v1/buildings", json={"name": "In use"}).json()
+    area = api.post(f"/api/v1/buildings/{building['id']}/areas", json={"name": "A"}).json()
+    fixture = api.post(f"/api/v1/areas/{area['id']}/fixtures", json=FIXTURE).json()
+    chosen = api.put(
+        f"/api/v1/fixtures/{fixture['id']}/proposal",
+        json={"module_id": module["id"], "pack_id": pack["id"]},
+    )
+    assert chosen.status_code in (200, 201), chosen.text
+    refused = api.delete(f"/api/v1/catalogue/modules/{module['id']}")
+    assert refused.status_code == 409
+    assert "in use" in refused.json()["detail"]
+    assert api.get(f"/api/v1/catalogue/modules/{module['id']}").status_code == 200
