@@ -11,8 +11,8 @@ from collections.abc import Sequence
 from typing import Any, TypeVar
 
 from sqlalchemy import ColumnElement, func, select
-from sqlalchemy.orm import Session
 from sqlalchemy.exc import IntegrityError
+from sqlalchemy.orm import Session
 from sqlalchemy.orm.exc import StaleDataError
 
 from server.accounts.models import User
