@@ -69,22 +69,32 @@ def _blocks(sheet: QuoteSheet, width_pt: float) -> Table:
 def _lines_table(sheet: QuoteSheet, width_pt: float) -> Table:
     quote = sheet.quote
     header = ["#", "Description", "Qty", "Unit", "Unit price", "Amount"]
-    rows: list[list[object]] = [[pdf.para(text, "cell_bold") for text in header]]
+    # Only the description wraps; the other cells are plain strings, drawn as they are
+    # (no markup is read from them), which keeps a 2,000-line quote quick to lay out.
+    numeric = {"Qty", "Unit price", "Amount"}
+    rows: list[list[object]] = [
+        [
+            pdf.para(pdf.bold(text), "cell_right", markup=True)
+            if text in numeric
+            else pdf.para(text, "cell_bold")
+            for text in header
+        ]
+    ]
     for number, line in enumerate(quote.lines, start=1):
         marker = " \u2020" if line.override_reason else ""
         rows.append(
             [
-                pdf.para(str(number), "cell"),
+                str(number),
                 pdf.para(
                     f"{pdf.escape(line.description)}{marker}"
                     f"<br/><font color='#5a6472'>{KIND_LABELS.get(line.kind, line.kind)}</font>",
                     "cell",
                     markup=True,
                 ),
-                pdf.para(_quantity(line.quantity), "cell_right"),
-                pdf.para(line.unit, "cell"),
-                pdf.para(f"{line.unit_price:,.2f}", "cell_right"),
-                pdf.para(f"{line.amount:,.2f}", "cell_right"),
+                _quantity(line.quantity),
+                line.unit,
+                f"{line.unit_price:,.2f}",
+                f"{line.amount:,.2f}",
             ]
         )
     widths = [8 * mm, None, 16 * mm, 12 * mm, 22 * mm, 24 * mm]
@@ -99,6 +109,11 @@ def _lines_table(sheet: QuoteSheet, width_pt: float) -> Table:
         TableStyle(
             [
                 ("VALIGN", (0, 0), (-1, -1), "TOP"),
+                ("FONTNAME", (0, 1), (-1, -1), pdf.FONT_CONDENSED),
+                ("FONTSIZE", (0, 1), (-1, -1), 8),
+                ("TEXTCOLOR", (0, 1), (-1, -1), pdf.INK),
+                ("ALIGN", (2, 1), (2, -1), "RIGHT"),
+                ("ALIGN", (4, 1), (5, -1), "RIGHT"),
                 ("LINEBELOW", (0, 0), (-1, 0), 0.8, pdf.INK),
                 ("LINEBELOW", (0, 1), (-1, -1), 0.25, pdf.RULE),
                 ("TOPPADDING", (0, 0), (-1, -1), 2),
