@@ -387,6 +387,11 @@
         return;
       }
       var value = text;
+      if (text.indexOf("\u0000") >= 0) {
+        // The API refuses NUL characters everywhere (the database cannot store them).
+        errors[name] = "Text may not contain a NUL character.";
+        return;
+      }
       if (rule.kind === "number" || rule.kind === "whole") {
         if (!/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(text)) {
           errors[name] = rule.kind === "whole" ? "Enter a whole number." : "Enter a number, like 36 or 12.5.";
@@ -1146,7 +1151,9 @@
       var status = answer.status;
       var data = answer.data;
       if (status === 201 || status === 200) {
-        return acknowledge(entry, data, status === 201 ? "sent" : "already", report).then(function () { return "next"; });
+        // 200 to a create: an earlier send of it arrived. 200 to an edit: done now.
+        var how = status === 200 && entry.kind === "create" ? "already" : "sent";
+        return acknowledge(entry, data, how, report).then(function () { return "next"; });
       }
       if (status === 409) {
         return onConflict(entry, data, report).then(function () { return "next"; });

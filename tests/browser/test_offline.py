@@ -45,6 +45,23 @@ SEEDED = {
     "unswitched_supply": True,
 }
 SYNC_TIMEOUT_MS = 20_000
+# Change a kept entry in the tablet's IndexedDB (both the value and what the form shows).
+DOCTOR_ENTRY = """async ({tag, name, value}) => {
+  const db = await new Promise((done, fail) => {
+    const opening = indexedDB.open("planner-offline");
+    opening.onsuccess = () => done(opening.result);
+    opening.onerror = () => fail(opening.error);
+  });
+  const store = db.transaction("queue", "readwrite").objectStore("queue");
+  const all = await new Promise((done) => {
+    store.getAll().onsuccess = (event) => done(event.target.result);
+  });
+  const entry = all.find((item) => item.tag === tag);
+  entry.values[name] = value;
+  entry.raw[name] = String(value);
+  await new Promise((done) => { store.put(entry).onsuccess = done; });
+  db.close();
+}"""
 
 
 def kept_for_offline(page: Any, building_id: str) -> None:
@@ -207,7 +224,10 @@ def test_an_offline_edit_of_a_fixture_changed_online_asks_which_to_keep(
     page.get_by_label("Lamp watts").fill("18")
     page.get_by_role("button", name="Save on this tablet").click()
     page.wait_for_url(re.compile(r"/areas/"))
-    waiting(page, 2)
+    record_offline(page, made["area"]["id"], tag="C-03", lamp_w="36")
+    # As if the server had tightened a limit since the tablet checked the form.
+    page.evaluate(DOCTOR_ENTRY, {"tag": "C-03", "name": "lamp_w", "value": 450})
+    waiting(page, 3)
 
     with site.api("surveyor") as api:  # meanwhile, with a signal, someone else
         their_edit = {"version": 1, "lamp_w": 28, "notes": "Relamped"}
@@ -215,9 +235,9 @@ def test_an_offline_edit_of_a_fixture_changed_online_asks_which_to_keep(
         api.patch(f"/api/v1/fixtures/{second['id']}", json={"version": 1, "lamp_w": 58})
 
     page.context.set_offline(False)
-    expect(bar(page)).to_have_attribute("data-attention", "2", timeout=SYNC_TIMEOUT_MS)
+    expect(bar(page)).to_have_attribute("data-attention", "3", timeout=SYNC_TIMEOUT_MS)
     expect(bar(page)).to_have_attribute("data-state", "attention")
-    expect(page.locator("#sync-waiting")).to_have_text("2 changes need your decision")
+    expect(page.locator("#sync-waiting")).to_have_text("3 changes need your decision")
     page.locator("#sync-waiting").click()
     card = page.locator(".offline-change", has_text="C-01")
     rows = card.locator(".offline-compare tbody tr")
@@ -240,9 +260,20 @@ def test_an_offline_edit_of_a_fixture_changed_online_asks_which_to_keep(
     other = page.locator(".offline-change", has_text="C-02")
     expect(other.locator(".offline-theirs")).to_have_text("58")
     other.get_by_role("button", name="Keep theirs").click()  # the dialog is accepted
-    waiting(page, 0)
-    expect(bar(page)).to_have_attribute("data-attention", "0", timeout=SYNC_TIMEOUT_MS)
+    expect(bar(page)).to_have_attribute("data-attention", "1", timeout=SYNC_TIMEOUT_MS)
+    expect(page.locator("#sync-message")).to_have_text("1 change sent.")
     expect(page.locator(".offline-recent")).to_contain_text("your change was dropped")
+    refused = page.locator(".offline-change", has_text="C-03")
+    expect(refused.locator(".offline-errors")).to_contain_text("Lamp watts [W]: Input should be")
+    refused.get_by_role("link", name="Correct it").click()
+    expect(page.locator("#f-tag")).to_have_value("C-03")
+    expect(page.get_by_label("Lamp watts")).to_have_value("450")
+    expect(page.locator("#lamp_w-offline-error")).to_contain_text("less than or equal to 400")
+    page.get_by_label("Lamp watts").fill("45")
+    page.get_by_role("button", name="Save fixture").click()
+    expect(page.locator(".notice.success")).to_have_text("Fixture C-03 saved.")
+    waiting(page, 0)
+    expect(bar(page)).to_have_attribute("data-attention", "0")
     with site.api("surveyor") as api:
         kept = api.get(f"/api/v1/fixtures/{first['id']}").json()
         theirs = api.get(f"/api/v1/fixtures/{second['id']}").json()
@@ -253,6 +284,8 @@ def test_an_offline_edit_of_a_fixture_changed_online_asks_which_to_keep(
         3,
     )
     assert (theirs["lamp_w"], theirs["version"]) == (58, 2)
+    corrected = [f for f in stored_fixtures(site, made["area"]["id"]) if f["tag"] == "C-03"]
+    assert [f["lamp_w"] for f in corrected] == [45]
 
 
 @pytest.fixture
@@ -390,6 +423,7 @@ BROKEN_FORMS = {
     "loaded above open circuit": {"open_circuit_v": "5.2", "loaded_v": "5.3"},
     "current and resistor": {"load_a": "0.3", "load_ohm": "9.1"},
     "date code without format": {"pack_date_code": "1834"},
+    "NUL in the notes": {"notes": "pack\x00label"},
 }
 
 
