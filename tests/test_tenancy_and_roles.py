@@ -143,6 +143,11 @@ ROUTE_RULES.update(
         ("POST", "/fixtures/{fixture_id}/proposal/accept"): E,
         ("POST", "/fixtures/{fixture_id}/proposal/unaccept"): E,
         ("POST", "/fixtures/{fixture_id}/proposal/recheck"): E,
+        # escape-route page
+        ("GET", "/areas/{area_id}/route"): S,
+        ("POST", "/areas/{area_id}/route"): S,
+        ("POST", "/areas/{area_id}/route/plan"): S,
+        ("POST", "/areas/{area_id}/route/plan/accept"): E,
         # catalogue pages
         ("GET", "/catalogue"): S,
         # maintenance pages
