@@ -6,9 +6,12 @@ renders in under 3 s and under 300 MB. Beside it runs a floor measured in
 the same run: plain reportlab drawing the same rows' texts straight onto a
 canvas (no tables, no wrapping, no QR codes), so a slow machine shows in
 both numbers; the ratio says what our layout costs over the bare library.
-Each render runs several times and the fastest counts (slower runs measure
-the neighbours); memory is the tracemalloc peak of one more run, with the
-process's maximum resident size beside it.
+A second row reads the same size of order back from a temporary SQLite
+database (issued from an accepted quote through the services) and renders
+it as the PDF route does; the budget holds for both. Each render runs
+several times and the fastest counts (slower runs measure the neighbours);
+memory is the tracemalloc peak of one more run, with the process's maximum
+resident size beside it.
 
 Run with ``python -m bench.bench_workorder_pdf`` from the repo root.
 """
@@ -17,19 +20,32 @@ from __future__ import annotations
 
 import resource
 import sys
+import tempfile
 import time
 import tracemalloc
 from collections.abc import Callable
 from datetime import date
+from decimal import Decimal
 from io import BytesIO
+from pathlib import Path
 
+from pypdf import PdfReader
 from reportlab.lib.pagesizes import A4
 from reportlab.pdfgen.canvas import Canvas
 
-from server.catalogue.models import EmergencyModule
+from server import migrate
+from server.accounts import service as accounts
+from server.accounts.models import Role, User
+from server.catalogue.models import BatteryPack, EmergencyModule
+from server.config import Mode, Settings
+from server.db import make_engine, make_session_factory
 from server.pdf import FONT_CONDENSED, MARGIN_PT
-from server.sites.models import Fixture
+from server.proposals.models import Proposal
+from server.quotes import service as quotes
+from server.quotes.schemas import QuoteCreate
+from server.sites.models import Area, Building, Fixture
 from server.workorders import schemas
+from server.workorders import service as workorders
 from server.workorders.documents import work_order_pdf
 from server.workorders.service import (
     AreaBlock,
@@ -172,19 +188,116 @@ def peak_mb(render: Callable[[], bytes]) -> float:
     return peak / 1e6
 
 
+def through_the_service(count: int = FIXTURES) -> Callable[[], bytes]:
+    """The same size of order stored in a temporary SQLite database, issued from an
+    accepted quote; the returned call reads it back and renders it as the PDF route does."""
+    folder = Path(tempfile.mkdtemp(prefix="bench-workorder-"))
+    url = f"sqlite:///{folder / 'bench.sqlite3'}"
+    migrate.upgrade(url)
+    engine = make_engine(url)
+    factory = make_session_factory(engine)
+    with factory() as session:
+        org = accounts.get_or_create_org(session=session, name="Bench Contractors")
+        user = accounts.create_user(
+            session=session,
+            org=org,
+            email="supervisor@bench.test",
+            password="bench password 1",
+            role=Role.SUPERVISOR,
+        )
+        building = Building(org_id=org.id, name="Bench tower")
+        module = EmergencyModule(
+            org_id=org.id,
+            name="Bench inverter 7 W",
+            battery_w=7.0,
+            chemistry="NiCd",
+            cells=4,
+            charge_a=0.17,
+            lamp_types=["T8"],
+            lamp_w_min=14,
+            lamp_w_max=58,
+            ballasts=list(BALLASTS),
+            price=Decimal("80.00"),
+            labour_h=1.0,
+        )
+        pack = BatteryPack(
+            org_id=org.id,
+            name="Bench NiCd 4.8 V 2.2 Ah",
+            chemistry="NiCd",
+            cells=4,
+            capacity_ah=2.2,
+            price=Decimal("30.00"),
+        )
+        session.add_all([building, module, pack])
+        session.flush()
+        for start in range(0, count, PER_AREA):
+            area = Area(
+                org_id=org.id,
+                building_id=building.id,
+                name=f"Area {start // PER_AREA}",
+                kind="escape-route",
+            )
+            session.add(area)
+            session.flush()
+            fixtures = [_fixture(i) for i in range(start, min(start + PER_AREA, count))]
+            for fixture in fixtures:
+                fixture.org_id, fixture.area_id = org.id, area.id
+            session.add_all(fixtures)
+            session.flush()  # the proposals point at the fixtures
+            session.add_all(
+                Proposal(
+                    org_id=org.id,
+                    fixture_id=fixture.id,
+                    module_id=module.id,
+                    pack_id=pack.id,
+                    status="accepted",
+                    verdict="pass",
+                    findings=[],
+                )
+                for fixture in fixtures
+            )
+        session.commit()
+        quote, _ = quotes.create_quote(
+            session=session, user=user, building_id=building.id, body=QuoteCreate()
+        )
+        quote.state = "accepted"
+        session.commit()
+        order, _ = workorders.issue(session=session, user=user, quote_id=quote.id)
+        order_id = order.id
+    settings = Settings(mode=Mode.TEST, database_url=url, secret_key="bench")
+
+    def render() -> bytes:
+        with factory() as session:
+            reader = session.get(User, user.id)
+            assert reader is not None
+            stored = workorders.get_work_order(session=session, user=reader, work_order_id=order_id)
+            return work_order_pdf(
+                workorders.work_order_sheet(
+                    session=session, user=reader, order=stored, settings=settings
+                )
+            )
+
+    return render
+
+
 def main() -> int:
     order = sheet()
+    service_wall, service_cpu, service_bytes = fastest(through_the_service())
     ours_wall, ours_cpu, pdf_bytes = fastest(lambda: work_order_pdf(order))
     floor_wall, floor_cpu, floor_bytes = fastest(lambda: plain_reportlab(order))
     ours_mb = peak_mb(lambda: work_order_pdf(order))
     floor_mb = peak_mb(lambda: plain_reportlab(order))
     max_rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    pages = pdf_bytes.count(b"/Type /Page\n") or pdf_bytes.count(b"/Type /Page")
+    pages = len(PdfReader(BytesIO(pdf_bytes)).pages)
     print(f"work order of {FIXTURES} fixtures, fastest of {REPEATS} runs")
     print(f"{'':24}{'wall s':>9}{'cpu s':>9}{'peak MB':>10}{'PDF kB':>9}")
     print(
         f"{'planner work order':24}{ours_wall:9.2f}{ours_cpu:9.2f}{ours_mb:10.1f}"
         f"{len(pdf_bytes) / 1e3:9.0f}"
+    )
+    print(
+        f"{'  read from the database':24}{service_wall:9.2f}{service_cpu:9.2f}{'':>10}"
+        f"{len(service_bytes) / 1e3:9.0f}"
     )
     print(
         f"{'plain reportlab floor':24}{floor_wall:9.2f}{floor_cpu:9.2f}{floor_mb:10.1f}"
@@ -194,7 +307,7 @@ def main() -> int:
         f"ratio (ours / floor): {ours_cpu / floor_cpu:.1f}x CPU; pages about {pages}; "
         f"process max RSS {max_rss_mb:.0f} MB"
     )
-    within = ours_cpu < BUDGET_S and ours_mb < BUDGET_MB
+    within = max(ours_cpu, service_cpu) < BUDGET_S and ours_mb < BUDGET_MB
     print(f"budget {BUDGET_S:g} s and {BUDGET_MB:g} MB: {'met' if within else 'MISSED'}")
     return 0 if within else 1
 
