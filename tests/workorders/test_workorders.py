@@ -270,3 +270,33 @@ def test_work_order_pdf_puts_cautions_first_and_a_row_per_fixture(
     assert sorted(links) == sorted(
         f"http://127.0.0.1:8000/fixtures/{task['fixture_id']}" for task in order["tasks"]
     )
+
+
+def test_the_quote_transitions_issue_and_complete_the_work_order(
+    client_as: Clients, directory: Directory
+) -> None:
+    _, quote = _accepted_quote(client_as, directory, [{"tag": "A-01"}])
+    supervisor = client_as("supervisor")
+    path = f"/api/v1/quotes/{quote['id']}/transitions"
+    refused = client_as("estimator").post(path, json={"to": "issued"})
+    assert refused.status_code == 403
+    issued = supervisor.post(path, json={"to": "issued"})
+    assert issued.status_code == 200 and issued.json()["state"] == "issued"
+    order = supervisor.get(f"/api/v1/work-orders/{issued.json()['work_order_id']}").json()
+    early = supervisor.post(path, json={"to": "completed"})
+    assert early.status_code == 409 and early.json()["current"]["open"] == 1
+    task = order["tasks"][0]
+    supervisor.patch(
+        f"/api/v1/work-orders/{order['id']}/tasks/{task['id']}",
+        json={
+            "version": task["version"],
+            "status": "done",
+            "charge_indicator_ok": True,
+            "function_test_ok": True,
+        },
+    )
+    completed = supervisor.post(path, json={"to": "completed"})
+    assert completed.status_code == 200 and completed.json()["state"] == "completed"
+    assert completed.json()["allowed_transitions"] == []
+    final = supervisor.post(path, json={"to": "draft"})
+    assert final.status_code == 409 and "final state" in final.json()["detail"]
