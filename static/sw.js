@@ -248,10 +248,18 @@ self.addEventListener("message", function (event) {
     var pages = data.pages.filter(function (page) {
       return page && typeof page.path === "string" && isSurveyPage(page.path);
     });
+    // Pages known to have changed (after a sync) are fetched again first.
+    var stale = (Array.isArray(data.refresh) ? data.refresh : []).filter(function (path) {
+      return typeof path === "string" && isSurveyPage(path);
+    });
     event.waitUntil(
-      Promise.all(pages.map(function (page) {
-        return warm(page.path, Math.max(0, Math.min(2, page.depth | 0)), Boolean(page.force));
-      })).then(function (counts) {
+      Promise.all(stale.map(function (path) {
+        return warmOne(path, true, false).catch(function () { return ""; });
+      })).then(function () {
+        return Promise.all(pages.map(function (page) {
+          return warm(page.path, Math.max(0, Math.min(2, page.depth | 0)), Boolean(page.force));
+        }));
+      }).then(function (counts) {
         answer(event, { type: "warmed", pages: counts.reduce(function (a, b) { return a + b; }, 0) });
       }, function () { answer(event, { type: "warmed", pages: 0 }); })
     );

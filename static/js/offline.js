@@ -1083,6 +1083,7 @@
     }).then(function () {
       report[how] += 1;
       report.areas[entry.areaId] = true;
+      report.fixtures[entry.recordId] = true;
       return remember(entry, how);
     });
   }
@@ -1103,6 +1104,7 @@
       if (!record) {
         report.problems += 1;
         return setState(entry, "refused", {
+          refusedStatus: 409,
           message: "The server refused this id: " + sentence(data && data.detail) +
             " Remove it here, or save it again as a new fixture."
         });
@@ -1181,7 +1183,7 @@
         : status === 401 ? "Signed out: sign in again to send it."
           : "The server could not take it just now (HTTP " + status + "); it will be tried again.";
       return setState(entry, "waiting", { lastError: why }).then(function () {
-        report.stopped = status === 401 ? "signed-out" : "offline";
+        report.stopped = status === 401 ? "signed-out" : status === 0 ? "offline" : "retry";
         return "stop";
       });
     });
@@ -1199,7 +1201,14 @@
   function runSync() {
     return probe().then(function (result) {
       setConnection(result.status);
-      var report = { sent: 0, already: 0, problems: 0, areas: {}, stopped: result.status === "online" ? "" : result.status };
+      var report = {
+        sent: 0,
+        already: 0,
+        problems: 0,
+        areas: {},
+        fixtures: {},
+        stopped: result.status === "online" ? "" : result.status
+      };
       if (result.status !== "online") {
         return report;
       }
@@ -1224,7 +1233,9 @@
         if (!report.stopped) {
           return setMeta("lastSyncAt", Date.now()).then(function () { return report; });
         }
-        setConnection(report.stopped);
+        if (report.stopped !== "retry") {
+          setConnection(report.stopped);
+        }
         return report;
       });
     });
@@ -1259,7 +1270,16 @@
         }
         var areas = Object.keys(report.areas || {});
         if (areas.length) {
-          warm(areas.map(function (id) { return { path: "/areas/" + id, depth: 1, force: true }; }));
+          // The kept copies of what changed are fetched again, and the new fixtures' forms kept.
+          var changed = areas.map(function (id) { return "/areas/" + id; }).concat(
+            Object.keys(report.fixtures).map(function (id) { return "/fixtures/" + id; }));
+          tellWorker({
+            type: "warm",
+            refresh: changed,
+            pages: areas.map(function (id) { return { path: "/areas/" + id, depth: 1 }; })
+          }).then(function () {
+            document.documentElement.setAttribute("data-offline-refreshed", String(Date.now()));
+          });
           afterSyncOnPage(areas);
         }
         if (report.sent || report.already || report.problems) {
@@ -1365,10 +1385,6 @@
     });
   }
 
-  function warm(pages) {
-    return tellWorker({ type: "warm", pages: pages });
-  }
-
   function forgetPages() {
     var forget = tellWorker({ type: "forget" });
     var limit = new Promise(function (resolve) { window.setTimeout(resolve, 1500); });
@@ -1395,7 +1411,7 @@
       { path: "/offline/changes", depth: 0 },
       { path: "/offline/rules/fixture.json", depth: 0 }
     ];
-    return warm(pages).then(function (answer) {
+    return tellWorker({ type: "warm", pages: pages }).then(function (answer) {
       if (answer && answer.type === "warmed") {
         document.documentElement.setAttribute("data-offline-ready", "yes");
         refresh();
@@ -1756,7 +1772,8 @@
       actions.appendChild(editAnchor(entry, "Correct it", "button primary"));
       actions.appendChild(actionButton("Remove from this tablet", "remove", entry, "danger"));
     } else if (entry.state === "refused") {
-      if (entry.kind === "edit" && entry.refusedStatus === 404) {
+      if ((entry.kind === "edit" && entry.refusedStatus === 404) ||
+          (entry.kind === "create" && entry.refusedStatus === 409)) {
         actions.appendChild(actionButton("Save it as a new fixture", "as-new", entry, "primary"));
       }
       actions.appendChild(actionButton("Remove from this tablet", "remove", entry, "danger"));
@@ -1956,6 +1973,9 @@
     syncNow().then(function (report) {
       if (report && report.stopped === "offline") {
         lastReport = "No connection yet: your changes stay on this tablet.";
+      } else if (report && report.stopped === "retry") {
+        lastReport = "The server did not take the changes just now; they stay on this tablet and " +
+          "are tried again.";
       } else if (report && !report.sent && !report.already && !report.problems && !report.stopped) {
         lastReport = "Everything on this tablet is on the server.";
       }

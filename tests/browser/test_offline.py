@@ -173,6 +173,15 @@ def test_ten_fixtures_recorded_offline_arrive_once(page_as: Any, site: Site) -> 
     assert (first["lamp_w"], first["lamp_count"], first["wiring"]) == (58, 1, "single")
     assert (first["open_circuit_v"], first["loaded_v"]) == (4.8, 4.6)
 
+    # The kept copy of the area was fetched again after the sync: offline, it lists all 11.
+    expect(page.locator("html")).to_have_attribute(
+        "data-offline-refreshed", re.compile(r"\d+"), timeout=SYNC_TIMEOUT_MS
+    )
+    context.set_offline(True)
+    page.reload()
+    expect(page.locator(".rows .row-tag")).to_have_count(11)
+    expect(page.locator("#offline-area-waiting")).to_have_count(0)
+
 
 def test_repeat_last_and_copies_work_offline_from_the_kept_fixture(
     page_as: Any, site: Site
