@@ -613,12 +613,15 @@ def _require_draft(quote: Quote) -> None:
         )
 
 
-def _require_version(quote: Quote, version: int | None) -> None:
+def _require_version(
+    quote: Quote, version: int | None, stored: dict[str, Any] | None = None
+) -> None:
+    """409 when the quote moved on; ``stored`` adds what is stored now for the fields edited."""
     if version is not None and version != quote.version:
         raise Conflict(
             f"Someone else changed quote {quote.number} first (you edited version {version}, "
             f"it is now at version {quote.version}). Nothing was changed.",
-            current={"state": quote.state, "version": quote.version},
+            current={**(stored or {}), "state": quote.state, "version": quote.version},
         )
 
 
@@ -758,7 +761,7 @@ def update_settings(
     if unchanged and body.version <= quote.version:
         return quote  # a retry of a change already made, or nothing to do
     _require_draft(quote)
-    _require_version(quote, body.version)
+    _require_version(quote, body.version, {name: getattr(quote, name) for name in requested})
     for name, value in requested.items():
         if value is None and name not in ("valid_until",):
             raise InvalidInput(name, "give a value (it cannot be emptied)")

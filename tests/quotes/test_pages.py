@@ -194,3 +194,35 @@ def test_the_supervisor_accepts_and_issues_from_the_page(
         follow_redirects=False,
     )
     assert issued.status_code == 303 and issued.headers["location"].startswith("/work-orders/")
+
+
+def test_a_stale_settings_save_shows_the_stored_values_beside_the_fields(
+    browser_session_as: Clients, client_as: Clients, directory: Directory
+) -> None:
+    building_id = _building(directory)
+    quote = client_as("estimator").post(f"/api/v1/buildings/{building_id}/quotes", json={}).json()
+    client_as("estimator").patch(
+        f"/api/v1/quotes/{quote['id']}", json={"version": quote["version"], "tax_pct": "7.5"}
+    )
+    browser = browser_session_as("estimator")
+    csrf = _parse(browser.get(f"/quotes/{quote['id']}").text).values["csrf_token"][0]
+    stale = browser.post(
+        f"/quotes/{quote['id']}/settings",
+        data={
+            "csrf_token": csrf,
+            "version": str(quote["version"]),
+            "tax_pct": "20",
+            "labour_rate": "65.00",
+            "markup_pct": "0",
+            "discount_pct": "0",
+            "series_link_h": "0.25",
+            "supply_run_h": "1.50",
+            "commissioning_h": "0.50",
+            "sundries_per_fixture": "6.00",
+            "supply_run_materials": "18.00",
+            "valid_until": quote["valid_until"],
+        },
+    )
+    assert stale.status_code == 409
+    assert "20" in _parse(stale.text).values["tax_pct"]  # the user's value stays
+    assert "Stored now: <strong>7.50</strong>" in stale.text
