@@ -981,7 +981,8 @@
     allEntries().then(function (entries) {
       var waiting = mine(entries).length;
       if (waiting && !window.confirm(plural(waiting, "change is", "changes are") + " not on the server yet. " +
-          "They stay on this tablet and are sent when you sign in here again. Sign out?")) {
+          (waiting === 1 ? "It stays" : "They stay") + " on this tablet and " + (waiting === 1 ? "is" : "are") +
+          " sent when you sign in here again. Sign out?")) {
         return false;
       }
       return forgetPages().then(function () { return true; });
@@ -1946,7 +1947,8 @@
         var box = element("div", "notice warn");
         box.setAttribute("role", "status");
         box.appendChild(element("p", "", plural(entries.length, "change is", "changes are") +
-          " kept on this tablet, not yet on the server. Sign in to send them."));
+          " kept on this tablet, not yet on the server. Sign in to send " +
+          (entries.length === 1 ? "it." : "them.")));
         main.insertBefore(box, main.firstChild);
       }
     }).catch(function () { return null; });
