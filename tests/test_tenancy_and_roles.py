@@ -150,6 +150,23 @@ ROUTE_RULES.update(
         ("POST", "/areas/{area_id}/route/plan/accept"): E,
         # catalogue pages
         ("GET", "/catalogue"): S,
+        # quote and work-order pages (accepting, issuing and completing also
+        # need a supervisor; the service checks that beyond the route's rule)
+        ("GET", "/quotes"): S,
+        ("POST", "/quotes/new"): E,
+        ("GET", "/quotes/{quote_id}"): S,
+        ("POST", "/quotes/{quote_id}/settings"): E,
+        ("POST", "/quotes/{quote_id}/lines"): E,
+        ("POST", "/quotes/{quote_id}/lines/{line_id}"): E,
+        ("POST", "/quotes/{quote_id}/lines/{line_id}/delete"): E,
+        ("POST", "/quotes/{quote_id}/overrides"): E,
+        ("POST", "/quotes/{quote_id}/transitions"): E,
+        ("POST", "/quotes/{quote_id}/work-order"): V,
+        ("GET", "/work-orders"): S,
+        ("GET", "/work-orders/{work_order_id}"): S,
+        ("POST", "/work-orders/{work_order_id}/tasks/{task_id}"): S,
+        ("POST", "/work-orders/{work_order_id}/details"): V,
+        ("POST", "/work-orders/{work_order_id}/complete"): V,
         # maintenance pages
         ("GET", "/maintenance"): ANY,
         ("GET", "/maintenance/buildings/{building_id}"): ANY,
