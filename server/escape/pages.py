@@ -98,10 +98,6 @@ LUX_W, LUX_H = 1000, 340
 LUX_MARGIN = {"left": 70.0, "right": 20.0, "top": 18.0, "bottom": 50.0}
 
 
-def _number(value: float) -> str:
-    return f"{value:.3g}" if value < 10 else f"{value:.0f}"
-
-
 def lux_plot(view: RoutePlotView, key: str) -> LuxPlot:
     """The illuminance along the route with the required levels and the darkest point."""
     left, right = LUX_MARGIN["left"], LUX_W - LUX_MARGIN["right"]
@@ -129,7 +125,7 @@ def lux_plot(view: RoutePlotView, key: str) -> LuxPlot:
     levels = [
         Level(
             y_of(view.min_lux_required),
-            f"minimum {_number(view.min_lux_required)} lx",
+            f"minimum {service.level_text(view.min_lux_required)} lx",
             y_of(view.min_lux_required) - 7,
             "min",
         )
@@ -138,7 +134,7 @@ def lux_plot(view: RoutePlotView, key: str) -> LuxPlot:
         levels.append(
             Level(
                 y_of(view.avg_lux_required),
-                f"average {_number(view.avg_lux_required)} lx",
+                f"average {service.level_text(view.avg_lux_required)} lx",
                 y_of(view.avg_lux_required) - 7,
                 "avg",
             )
@@ -151,9 +147,9 @@ def lux_plot(view: RoutePlotView, key: str) -> LuxPlot:
         f"maximum {view.max_lux:.2f} lx"
         + (f" (drawn cut off at {view.top_lux:.3g} lx)" if view.clipped else "")
         + "; the profile asks at least "
-        f"{_number(view.min_lux_required)} lx"
+        f"{service.level_text(view.min_lux_required)} lx"
         + (
-            f" and an average of {_number(view.avg_lux_required)} lx."
+            f" and an average of {service.level_text(view.avg_lux_required)} lx."
             if view.avg_lux_required is not None
             else "."
         )
@@ -413,8 +409,8 @@ def _tags(tags: Sequence[str]) -> str:
 def requirement_text(profile: Profile) -> str:
     def lux(value: float) -> str:
         if profile.avg_lux is not None or profile.end_min_lux is not None:
-            return f"{_number(value)} lx ({lux_to_footcandles(value):.2g} fc)"
-        return f"{_number(value)} lx"
+            return f"{service.level_text(value)} lx ({lux_to_footcandles(value):.2g} fc)"
+        return f"{service.level_text(value)} lx"
 
     parts = [f"at least {lux(profile.min_lux)} at every point of the centre line"]
     if profile.avg_lux is not None:

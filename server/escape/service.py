@@ -949,6 +949,11 @@ class RoutePlotView:
     s_step_m: float  # between distance ticks [m]
 
 
+def level_text(lux: float) -> str:
+    """A required level in three figures: 1, 1.08, 10.8, 15. [lx]"""
+    return f"{lux:.3g}" if lux < 1000 else f"{lux:.0f}"
+
+
 def nice_step(span: float, most: int) -> float:
     """The smallest 1-2-5 step that cuts ``span`` into at most ``most`` parts."""
     if span <= 0:

@@ -20,6 +20,7 @@ from reportlab.platypus import (
 )
 
 from server import pdf
+from server.escape.documents import route_plot_flowables
 from server.safety import CAUTIONS
 from server.workorders import sketches
 from server.workorders.service import AreaBlock, FixtureRow, PackLabel, WorkOrderSheet
@@ -422,6 +423,8 @@ def work_order_pdf(sheet: WorkOrderSheet) -> bytes:
     story += _sketches(sheet, width)
     for block in sheet.areas:
         story += [CondPageBreak(50 * mm), Spacer(1, 2 * mm), _area(block, width)]
+        if block.route_plot is not None:
+            story += [Spacer(1, 2 * mm), *route_plot_flowables(block.route_plot, width)]
     story += [
         KeepTogether(
             [

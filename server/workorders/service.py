@@ -29,6 +29,7 @@ from server.db import utcnow
 from server.engineering import batteries, calculators
 from server.engineering.errors import InvalidInput as EngineeringInvalidInput
 from server.engineering.vocabulary import BallastTech, Changeover, Chemistry, Wiring
+from server.escape import service as escape_routes
 from server.proposals.models import Proposal
 from server.quotes import service as quotes
 from server.quotes.models import Quote, QuoteState
@@ -674,6 +675,7 @@ class AreaBlock:
     title: str
     required_duration_min: float
     rows: list[FixtureRow]
+    route_plot: escape_routes.RoutePlotView | None = None  # light along its escape route
 
 
 @dataclass(frozen=True, slots=True)
@@ -789,6 +791,9 @@ def work_order_sheet(
             )
         )
     areas = sorted(context.areas.values(), key=lambda a: (a.floor, a.name, a.id))
+    plots = escape_routes.route_plots(
+        session=session, org_id=order.org_id, area_ids=[a.id for a in areas if blocks[a.id]]
+    )
     return WorkOrderSheet(
         number=order.number,
         quote_number=context.quote.number,
@@ -806,6 +811,7 @@ def work_order_sheet(
                 title=f"{area.name}" + (f" ({area.floor})" if area.floor else ""),
                 required_duration_min=area.required_duration_min,
                 rows=blocks[area.id],
+                route_plot=plots.get(area.id),
             )
             for area in areas
             if blocks[area.id]
