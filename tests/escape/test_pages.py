@@ -308,6 +308,19 @@ def test_nothing_is_enough_says_where_and_by_how_much(estimator: TestClient) -> 
     assert re.search(r"at \d+\.\d m along the route, \d+\.\d\d lx against the 1\.00 lx", alert)
 
 
+def test_the_us_profile_draws_its_average_as_well(estimator: TestClient) -> None:
+    made = corridor(estimator, profile_id="us-egress", required_duration_min=90)
+    save(estimator, made["area"])
+    page = parse(estimator.post(route_path(made["area"]) + "/plan").text)
+    svg = lux_polyline(page, "plan").parent
+    assert svg is not None
+    labels = [text.text() for text in svg.find_all("text", class_="plot-label")]
+    # NFPA 101 §7.9.2.1: 0.1 fc minimum and 1 fc average (1 fc = 10.764 lx).
+    assert "minimum 1.08 lx" in labels and "average 10.8 lx" in labels
+    assert len(svg.find_all("line", class_="lux-level-avg")) == 1
+    assert "an average of 10.8 lx (1 fc)" in page.text()
+
+
 def test_without_a_route_the_planner_asks_for_one(estimator: TestClient) -> None:
     made = corridor(estimator, fixtures=1, length_m=None, width_m=None)
     page = parse(estimator.get(route_path(made["area"])).text)
@@ -385,6 +398,7 @@ def test_route_page_in_chromium(
     }
     page.get_by_role("button", name="Plan the cheapest conversion").click()
     page.locator(".route-plan-result").wait_for()
+    page.get_by_text("What each fixture would give and cost").click()
     screenshot(page, "route-plan", viewport)
     found["plan sideways scroll"] = not no_horizontal_scroll(page)
     found["plan small"] = small_targets(page)
