@@ -362,6 +362,9 @@ def save_route(
             session.rollback()
             raise Conflict("Someone else saved a route for this area at the same moment.") from None
         return record
+    unchanged = all(getattr(existing, name) == value for name, value in values.items())
+    if version is None and route_id == existing.id and unchanged:
+        return existing  # the same create sent twice (a double tap, a retry)
     if version is None:
         raise Conflict(
             f"Someone else saved a route for this area first (version {existing.version}). "

@@ -162,9 +162,18 @@ def test_a_route_is_created_changed_at_its_version_and_never_overwritten_stale(
     area = _area(session, estimator.org_id)
     form = service.EscapeRouteForm(points="0,1; 20,1", width_m=1.2)
     made = service.save_route(
-        session=session, user=estimator, area=area, body=form, version=None, route_id=None
+        session=session,
+        user=estimator,
+        area=area,
+        body=form,
+        version=None,
+        route_id="6f1d2c3b-0a4e-4c5d-9e8f-7a6b5c4d3e2f",
     )
     assert (made.points_m, made.width_m, made.maintenance_factor) == ([[0, 1], [20, 1]], 1.2, 0.8)
+    retried = service.save_route(
+        session=session, user=estimator, area=area, body=form, version=None, route_id=made.id
+    )
+    assert retried.id == made.id and retried.version == 1  # the same create sent twice
     changed = service.save_route(
         session=session,
         user=estimator,
