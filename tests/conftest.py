@@ -28,6 +28,10 @@ from server.app import create_app
 from server.config import Mode, Settings
 from server.db import make_engine, make_session_factory
 
+# The browser fixtures (one server and one Chromium for the whole session) live in
+# a plugin so every folder's tests share them, instead of each importing its own copy.
+pytest_plugins = ("tests.browser_support",)
+
 PASSWORD = "correct horse battery"
 TEST_SECRET = "test-secret-key-not-for-production"
 

@@ -24,11 +24,13 @@ from server.engineering.vocabulary import (
 )
 
 Cells = Annotated[int, Field(ge=1, le=40, description="Cells in the pack.")]
-CapacityAh = Annotated[float, Field(gt=0, le=500, description="Rated capacity. [Ah]")]
-Amps = Annotated[float, Field(gt=0, le=100)]
-Watts = Annotated[float, Field(gt=0, le=1000)]
+CapacityAh = Annotated[float, Field(ge=0.01, le=500, description="Rated capacity. [Ah]")]
+# Floors far below any emergency pack or module (10 mAh, 1 mA, 10 mW, 1 mohm) keep every
+# result finite: a vanishing current would otherwise give an infinite time.
+Amps = Annotated[float, Field(ge=0.001, le=100)]
+Watts = Annotated[float, Field(ge=0.01, le=1000)]
 Volts = Annotated[float, Field(gt=0, le=200)]
-Ohms = Annotated[float, Field(gt=0, le=1000)]
+Ohms = Annotated[float, Field(ge=0.001, le=1000)]
 Celsius = Annotated[float, Field(ge=-60, le=120)]
 Minutes = Annotated[float, Field(gt=0, le=7 * 24 * 60)]
 RatedHours = Annotated[float, Field(gt=0, le=100, description="Hours of the capacity rate. [h]")]

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tests.browser.conftest import Site, new_site, no_horizontal_scroll
+from tests.browser_support import Site, new_site, no_horizontal_scroll
 
 SCRIPT = "<script>window.pwned=1</script>"
 ATTRIBUTE = '"\'><img src=x onerror="window.pwned=2">'

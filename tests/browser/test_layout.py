@@ -7,7 +7,7 @@ from typing import Any
 
 import pytest
 
-from tests.browser.conftest import (
+from tests.browser_support import (
     VIEWPORTS,
     Site,
     inputs_without_label,

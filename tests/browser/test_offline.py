@@ -18,7 +18,7 @@ from typing import Any
 import pytest
 from playwright.sync_api import Route, expect
 
-from tests.browser.conftest import (
+from tests.browser_support import (
     CHROMIUM,
     CHROMIUM_ARGS,
     VIEWPORTS,

@@ -7,7 +7,7 @@ from typing import Any
 import pytest
 from playwright.sync_api import expect
 
-from tests.browser.conftest import Site, new_site, no_horizontal_scroll, screenshot
+from tests.browser_support import Site, new_site, no_horizontal_scroll, screenshot
 from tests.planner_data import SERIES_FIXTURE
 
 pytestmark = pytest.mark.browser

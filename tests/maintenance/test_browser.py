@@ -13,16 +13,13 @@ from typing import Any
 
 import pytest
 
-from tests.browser.conftest import (  # noqa: F401 - pytest fixtures, used by name
+from tests.browser_support import (
     VIEWPORTS,
     Site,
-    browser,
     inputs_without_label,
     new_site,
     no_horizontal_scroll,
-    page_as,
     screenshot,
-    site,
     small_targets,
 )
 

@@ -1,4 +1,4 @@
-"""Browser tests: Debian's Chromium driven by Playwright against a real server.
+"""Browser test fixtures: Debian's Chromium driven by Playwright against a real server.
 
 One uvicorn process (``python -m server serve``) runs for the whole session on
 a free loopback port, against a temporary SQLite file made by the real
