@@ -35,7 +35,7 @@ from server.catalogue.models import BatteryPack, EmergencyModule
 from server.common import crud
 from server.common.errors import Conflict, InvalidInput, NotFound
 from server.common.forms import friendly_message
-from server.db import utcnow
+from server.db import new_id, utcnow
 from server.engineering import condition as core
 from server.engineering.batteries import (
     Pack,
@@ -426,10 +426,10 @@ def _add_record(
         batch_id=batch_id,
         **values,
     )
-    if record_id is not None:
-        record.id = record_id
+    # The id is made here, not at flush, so a batch (a walk, an import) is written
+    # in one flush at commit instead of a round trip per record.
+    record.id = record_id or new_id()
     session.add(record)
-    session.flush()
     audit.record(
         session=session,
         user=user,
