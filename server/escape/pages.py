@@ -80,6 +80,7 @@ class LuxPlot:
     tick_label_y: float
     unit_x: float
     unit_y: float
+    unit_x_label_y: float
     levels: list[Level]
     level_x: float
     level_anchor: str
@@ -172,6 +173,7 @@ def lux_plot(view: RoutePlotView, key: str) -> LuxPlot:
         tick_label_y=bottom + 20,
         unit_x=(left + right) / 2,
         unit_y=(top + bottom) / 2,
+        unit_x_label_y=LUX_H - 6,
         levels=levels,
         level_x=level_x,
         level_anchor=level_anchor,
@@ -215,6 +217,16 @@ class PlanSymbol:
     def rect_y(self) -> float:
         return round(self.y - self.height / 2, 1)
 
+    @property
+    def halo(self) -> tuple[float, float, float, float]:
+        """x, y, width, height of the frame around a chosen fixture."""
+        return (
+            round(self.rect_x - HALO_PX, 1),
+            round(self.rect_y - HALO_PX, 1),
+            round(self.width + 2 * HALO_PX, 1),
+            round(self.height + 2 * HALO_PX, 1),
+        )
+
 
 @dataclass(frozen=True, slots=True)
 class PlanDrawing:
@@ -225,9 +237,10 @@ class PlanDrawing:
     band_px: float
     start: tuple[float, float]
     end: tuple[float, float]
-    worst: tuple[float, float] | None
+    worst: tuple[float, float, float, float] | None  # the cross: left, top, right, bottom
     symbols: list[PlanSymbol]
     scale_bar: tuple[float, float, float, str]  # x1, x2, y, label
+    scale_label: tuple[float, float]  # x, y of the label
     title: str
     description: str
 
@@ -235,6 +248,8 @@ class PlanDrawing:
 PLAN_W = 1000
 PLAN_PAD = {"left": 64.0, "right": 64.0, "top": 40.0, "bottom": 56.0}
 LABEL_GAP_PX = 12.0
+HALO_PX = 6.0
+CROSS_PX = 9.0
 PLAN_MAX_H, PLAN_MIN_H = 620, 220
 SYMBOL_THICK_PX, SYMBOL_MIN_PX = 11.0, 15.0
 
@@ -305,8 +320,8 @@ def plan_drawing(
     start, end = px(*route.points_m[0]), px(*route.points_m[-1])
     worst = None
     if worst_s_m is not None:
-        wx, wy, _ = service.point_at_m(route, worst_s_m)
-        worst = px(wx, wy)
+        wx, wy = px(*service.point_at_m(route, worst_s_m)[:2])
+        worst = (wx - CROSS_PX, wy - CROSS_PX, wx + CROSS_PX, wy + CROSS_PX)
     bar_m = service.nice_step((x_max - x_min) / 4, 1)
     bar_x1 = PLAN_PAD["left"]
     bar_y = height - 16.0
@@ -327,6 +342,7 @@ def plan_drawing(
         worst=worst,
         symbols=symbols,
         scale_bar=(bar_x1, round(bar_x1 + bar_m * scale, 1), bar_y, f"{bar_m:g} m"),
+        scale_label=(round(bar_x1 + bar_m * scale + 8, 1), bar_y + 5),
         title=f"Plan of the route through {area.name}",
         description=description,
     )
