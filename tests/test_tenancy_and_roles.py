@@ -56,7 +56,7 @@ ROUTE_RULES: dict[tuple[str, str], str | Role] = {
     ("GET", "/offline/session"): ANY,
     ("GET", "/offline/changes"): S,
 }
-for _kind in ("ballast-types", "modules", "packs"):
+for _kind in ("ballast-types", "modules", "packs", "profiles"):
     ROUTE_RULES[("GET", f"/api/v1/catalogue/{_kind}")] = S
     ROUTE_RULES[("POST", f"/api/v1/catalogue/{_kind}")] = E
     ROUTE_RULES[("GET", f"/api/v1/catalogue/{_kind}/{{record_id}}")] = S
@@ -181,7 +181,7 @@ ROUTE_RULES.update(
         ("POST", "/maintenance/buildings/{building_id}/import"): S,
     }
 )
-for _kind in ("ballast-types", "modules", "packs"):
+for _kind in ("ballast-types", "modules", "packs", "profiles"):
     ROUTE_RULES[("GET", f"/catalogue/{_kind}")] = S
     ROUTE_RULES[("GET", f"/catalogue/{_kind}/new")] = E
     ROUTE_RULES[("POST", f"/catalogue/{_kind}/new")] = E
@@ -197,6 +197,7 @@ ID_KINDS = {
     "ballast-types": "ballast_type",
     "modules": "module",
     "packs": "pack",
+    "profiles": "profile",
     "quotes": "quote",
     "lines": "quote_line",
     "work-orders": "work_order",
@@ -340,6 +341,12 @@ def firm_b_records(client_as: Callable[..., TestClient], database_url: str) -> d
         estimator.post(
             "/api/v1/catalogue/packs",
             json={"name": "B pack", "chemistry": "NiCd", "cells": 4, "capacity_ah": 4.0},
+        )
+    )["id"]
+    ids["profile"] = made(
+        estimator.post(
+            "/api/v1/catalogue/profiles",
+            json={"name": "B spec", "duration_min": 120, "min_lux": 2.0, "source": "client"},
         )
     )["id"]
     proposal = made(

@@ -6,7 +6,7 @@ from fastapi import APIRouter
 
 from server.accounts.models import Role
 from server.catalogue import schemas
-from server.catalogue.models import BallastType, BatteryPack, EmergencyModule
+from server.catalogue.models import BallastType, BatteryPack, EmergencyModule, RequirementProfile
 from server.common.api import Resource, add_collection_routes, add_item_routes
 
 router = APIRouter(prefix="/api/v1/catalogue")
@@ -36,10 +36,20 @@ PACKS = Resource(
     label="battery pack",
 )
 
+PROFILES = Resource(
+    model=RequirementProfile,
+    create=schemas.ProfileCreate,
+    update=schemas.ProfileUpdate,
+    read=schemas.ProfileRead,
+    write_role=Role.ESTIMATOR,
+    label="requirement profile",
+)
+
 for _path, _resource in (
     ("/ballast-types", BALLAST_TYPES),
     ("/modules", MODULES),
     ("/packs", PACKS),
+    ("/profiles", PROFILES),
 ):
     add_collection_routes(router, _path, _resource, tag="catalogue")
     add_item_routes(router, _path + "/{record_id}", _resource, tag="catalogue")

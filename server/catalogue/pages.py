@@ -28,6 +28,7 @@ from server.common.forms import FormDep, FormView
 from server.common.labels import choices, label
 from server.common.models import OrgOwned
 from server.deps import EstimatorUser, SessionDep, SurveyorUser
+from server.engineering.profiles import AreaKind, Evaluation
 from server.engineering.vocabulary import (
     BallastTech,
     Changeover,
@@ -84,6 +85,20 @@ PACK_LABELS = {
     "price": "Price",
     "notes": "Notes",
 }
+PROFILE_LABELS = {
+    "name": "Name",
+    "area_kind": "Kind of area",
+    "evaluation": "Where the levels are checked",
+    "duration_min": "Required duration",
+    "min_lux": "Minimum illuminance",
+    "avg_lux": "Minimum average",
+    "end_min_lux": "Minimum at end of duration",
+    "end_avg_lux": "Average at end of duration",
+    "max_min_ratio": "Largest max:min ratio",
+    "monthly_test_days": "Function test every",
+    "annual_test_days": "Duration test every",
+    "source": "Source (code, clause, client's specification)",
+}
 
 
 def _money(value: Decimal) -> str:
@@ -116,6 +131,15 @@ def _pack_cells(item: Any) -> list[str]:
         f"{item.capacity_ah:g} Ah",
         f"{item.max_c:g} \u00b0C",
         _money(item.price),
+    ]
+
+
+def _profile_cells(item: Any) -> list[str]:
+    return [
+        label(item.area_kind, AreaKind),
+        f"{item.duration_min:g} min",
+        f"{item.min_lux:g} lx",
+        f"{item.max_min_ratio:g}:1",
     ]
 
 
@@ -166,6 +190,16 @@ KINDS: dict[str, Kind] = {
             ("Chemistry", "Capacity", "Max ambient", "Price"),
             _pack_cells,
         ),
+        Kind(
+            "profiles",
+            catalogue_api.PROFILES,
+            "Requirement profiles of our own",
+            "requirement profile",
+            "catalogue/profile_form.html",
+            PROFILE_LABELS,
+            ("Kind of area", "Duration", "Minimum", "Max:min"),
+            _profile_cells,
+        ),
     )
 }
 MODULE_DEFAULTS = {
@@ -186,6 +220,8 @@ def _choices() -> dict[str, list[tuple[str, str]]]:
         "waveforms": choices(Waveform),
         "counts": [(str(n), str(n)) for n in range(1, 9)],
         "module_lamps": [(str(n), str(n)) for n in range(1, 5)],
+        "area_kinds": choices(AreaKind),
+        "evaluations": choices(Evaluation),
     }
 
 

@@ -5,9 +5,10 @@ from __future__ import annotations
 from decimal import Decimal
 from typing import Annotated
 
-from pydantic import Field, model_validator
+from pydantic import Field, StringConstraints, model_validator
 
 from server.common.schemas import CreateBase, LongText, Name, ReadBase, update_model
+from server.engineering.profiles import AreaKind, Evaluation
 from server.engineering.vocabulary import BallastTech, Changeover, Chemistry, LampType, Waveform
 
 Watts = Annotated[float, Field(gt=0, le=500)]
@@ -122,3 +123,60 @@ class PackRead(ReadBase):
 BallastTypeUpdate = update_model(BallastTypeCreate)
 ModuleUpdate = update_model(ModuleCreate)
 PackUpdate = update_model(PackCreate)
+
+
+Lux = Annotated[float, Field(gt=0, le=10_000)]
+
+
+class ProfileCreate(CreateBase):
+    """A requirement profile of the organisation's own (a local code, a client's spec)."""
+
+    name: Name
+    area_kind: AreaKind = AreaKind.ESCAPE_ROUTE
+    evaluation: Evaluation = Evaluation.CENTRE_LINE
+    duration_min: Annotated[float, Field(gt=0, le=24 * 60)]
+    min_lux: Lux
+    avg_lux: Lux | None = None
+    end_min_lux: Lux | None = None
+    end_avg_lux: Lux | None = None
+    max_min_ratio: Annotated[float, Field(ge=1, le=1000)] = 40.0
+    monthly_test_days: Annotated[int, Field(ge=1, le=366)] = 30
+    annual_test_days: Annotated[int, Field(ge=1, le=3660)] = 365
+    source: Annotated[str, StringConstraints(min_length=1, max_length=500)] = (
+        "defined by the organisation"
+    )
+
+    @model_validator(mode="after")
+    def _levels_make_sense(self) -> ProfileCreate:
+        # The same rules as the built-in profiles (server.engineering.profiles.make_profile).
+        if self.avg_lux is not None and self.avg_lux < self.min_lux:
+            raise ValueError("avg_lux: the average cannot be required below the minimum")
+        if self.end_min_lux is not None and self.end_min_lux > self.min_lux:
+            raise ValueError("end_min_lux: the end-of-duration level cannot exceed the initial one")
+        if (
+            self.end_avg_lux is not None
+            and self.avg_lux is not None
+            and self.end_avg_lux > self.avg_lux
+        ):
+            raise ValueError(
+                "end_avg_lux: the end-of-duration average cannot exceed the initial one"
+            )
+        return self
+
+
+class ProfileRead(ReadBase):
+    name: str
+    area_kind: AreaKind
+    evaluation: Evaluation
+    duration_min: float
+    min_lux: float
+    avg_lux: float | None
+    end_min_lux: float | None
+    end_avg_lux: float | None
+    max_min_ratio: float
+    monthly_test_days: int
+    annual_test_days: int
+    source: str
+
+
+ProfileUpdate = update_model(ProfileCreate)

@@ -10,7 +10,7 @@ from collections.abc import Iterable
 from enum import StrEnum
 
 from server.engineering.findings import Severity, Verdict
-from server.engineering.profiles import AreaKind
+from server.engineering.profiles import AreaKind, Evaluation
 from server.engineering.vocabulary import (
     BallastTech,
     Changeover,
@@ -53,6 +53,9 @@ LABELS: dict[StrEnum, str] = {
     AreaKind.HIGH_RISK: "High-risk task area",
     AreaKind.STAIRWAY: "Stairway",
     AreaKind.OTHER: "Other",
+    Evaluation.CENTRE_LINE: "Centre line of the route (and its central band)",
+    Evaluation.PATH: "Along the path: minimum and average",
+    Evaluation.CORE_AREA: "Core area of the floor (0.5 m border left out)",
     Severity.FAIL: "Fail",
     Severity.WARN: "Warn",
     Severity.ACTION: "Action",

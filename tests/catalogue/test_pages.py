@@ -140,3 +140,64 @@ def test_deleting_a_module_in_use_answers_409_and_keeps_it(client_as) -> None:
     assert refused.status_code == 409
     assert "in use" in refused.json()["detail"]
     assert api.get(f"/api/v1/catalogue/modules/{module['id']}").status_code == 200
+
+
+def test_an_organisations_own_profile_is_checked_and_used(client_as) -> None:
+    api = client_as("estimator")
+    bad = api.post(
+        "/api/v1/catalogue/profiles",
+        json={"name": "Client spec", "duration_min": 120, "min_lux": 2.0, "avg_lux": 1.0},
+    )
+    assert bad.status_code == 422
+    assert bad.json()["detail"][0]["loc"][-1] == "avg_lux"
+    made = api.post(
+        "/api/v1/catalogue/profiles",
+        json={
+            "name": "Client spec: 2 lx, 2 h",
+            "duration_min": 120,
+            "min_lux": 2.0,
+            "source": "client's specification, section 4",
+        },
+    )
+    assert made.status_code == 201, made.text
+    profile = made.json()
+    building = api.post("/api/v1/buildings", json={"name": "Spec block"}).json()
+    area = api.post(
+        f"/api/v1/buildings/{building['id']}/areas",
+        json={"name": "Corridor", "profile_id": profile["id"], "required_duration_min": 120},
+    )
+    assert area.status_code == 201, area.text
+    assert (
+        client_as("surveyor").delete(f"/api/v1/catalogue/profiles/{profile['id']}").status_code
+        == 403
+    )
+
+
+def test_profile_pages_list_and_refuse_beside_the_field(browser_session_as) -> None:
+    from tests.pages import field_error, parse
+
+    browser = browser_session_as("estimator")
+    page = browser.get("/catalogue/profiles/new")
+    assert page.status_code == 200
+    token = browser.cookies.get("planner_session") and _csrf(page.text)
+    answer = browser.post(
+        "/catalogue/profiles/new",
+        data={
+            "csrf_token": token,
+            "name": "Spec",
+            "duration_min": "-5",
+            "min_lux": "1",
+            "source": "client",
+        },
+    )
+    assert answer.status_code == 422
+    assert field_error(parse(answer.text), "duration_min")
+    assert "Requirement profiles of our own" in browser.get("/catalogue").text
+
+
+def _csrf(html: str) -> str:
+    import re
+
+    match = re.search(r'name="csrf_token" value="([^"]+)"', html)
+    assert match
+    return match.group(1)
