@@ -226,6 +226,11 @@ class RequirementIn(StrictModel):
     profile: str | None = Field(
         None, max_length=64, description="A built-in profile id or one of the firm's profiles."
     )
+    min_emergency_lm: Annotated[float, Field(gt=0, le=1_000_000)] | None = Field(
+        None,
+        description="Emergency lumens the route needs from this fixture (for example from "
+        "the route planner); the check fails below it. [lm]",
+    )
 
 
 class CheckIn(StrictModel):

@@ -245,7 +245,9 @@ def check(
                 session=session, org_id=org_id, profile_id=payload.requirement.profile
             )
         requirement = compatibility.Requirement(
-            duration_min=payload.requirement.duration_min, profile=profile
+            duration_min=payload.requirement.duration_min,
+            profile=profile,
+            min_emergency_lm=payload.requirement.min_emergency_lm,
         )
     with refused_as_422("pack"):
         result = compatibility.evaluate(fixture, module, pack, requirement, today=today)

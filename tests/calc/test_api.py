@@ -472,3 +472,17 @@ def test_hostile_numbers_never_cause_a_500(client_as: ClientAs) -> None:
         assert answer.status_code in (200, 422), answer.text
 
     post()
+
+
+def test_check_fails_when_the_route_needs_more_light_than_the_fixture_gives(
+    client_as: ClientAs,
+) -> None:
+    # The same 7 W module on a 36 W T8 gives 3350 * 0.75 * 7 / 36 = 489 lm (estimate as above).
+    body = combination()
+    body["requirement"]["min_emergency_lm"] = 600
+    answer = client_as().post("/api/v1/calc/check", json=body).json()
+    assert answer["verdict"] == "fail"
+    assert any(f["code"] == "light.below-needed" for f in answer["findings"])
+    body["requirement"]["min_emergency_lm"] = 400
+    quiet = client_as().post("/api/v1/calc/check", json=body).json()
+    assert not any(f["code"] == "light.below-needed" for f in quiet["findings"])
