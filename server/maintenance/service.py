@@ -54,10 +54,11 @@ from server.engineering.schedule import (
     fixture_schedule,
     longest_gap_days,
 )
-from server.engineering.vocabulary import Chemistry, DateCodeFormat
+from server.engineering.vocabulary import DateCodeFormat
 from server.maintenance import csvio, schemas
 from server.maintenance.models import CalendarLink, TestRecord
 from server.maintenance.schemas import TestRecordCreate, TestResult
+from server.proposals import service as proposals_service
 from server.proposals.models import Proposal
 from server.sites.models import Area, Building, Fixture
 
@@ -583,21 +584,6 @@ def record_walk(
 # ---- pack condition ---------------------------------------------------------------
 
 
-def engineering_pack(pack: BatteryPack) -> Pack:
-    """The catalogue pack as the engineering core sees it."""
-    return Pack(
-        chemistry=Chemistry(pack.chemistry),
-        cells=pack.cells,
-        capacity_ah=pack.capacity_ah,
-        rated_hours=pack.rated_hours,
-        peukert_k=pack.peukert_k,
-        nominal_v=pack.nominal_v,
-        design_life_years=pack.design_life_years,
-        max_ambient_c=pack.max_c,
-        new_internal_ohm=pack.new_internal_ohm,
-    )
-
-
 def module_current(module: EmergencyModule, pack: Pack) -> tuple[float, str]:
     """Battery current of the module and how it was found. [A]"""
     if module.battery_a is not None:
@@ -711,7 +697,7 @@ def assess(
             ),
         ), None
     module, pack_row = log.installed.module, log.installed.pack
-    pack = engineering_pack(pack_row)
+    pack = proposals_service.engine_pack(pack_row)
     current_a, current_note = module_current(module, pack)
     since, basis = installed_on(log, on)
     standing = [r for r in log.standing if since is None or r.tested_on >= since]

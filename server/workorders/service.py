@@ -30,6 +30,7 @@ from server.engineering import batteries, calculators
 from server.engineering.errors import InvalidInput as EngineeringInvalidInput
 from server.engineering.vocabulary import BallastTech, Changeover, Chemistry, Wiring
 from server.escape import service as escape_routes
+from server.proposals import service as proposals_service
 from server.proposals.models import Proposal
 from server.quotes import service as quotes
 from server.quotes.models import Quote, QuoteState
@@ -191,14 +192,7 @@ def commissioning_checks(required_min: float, recharge_h: float | None) -> list[
 
 def pack_life_years(pack: BatteryPack, ambient_c: float) -> float:
     """The pack's expected life at the fixture's ambient, shortened above its marking."""
-    model = batteries.Pack(
-        chemistry=Chemistry(pack.chemistry),
-        cells=pack.cells,
-        capacity_ah=pack.capacity_ah,
-        design_life_years=pack.design_life_years,
-        max_ambient_c=pack.max_c,
-    )
-    return model.service_life_years_at(ambient_c)
+    return proposals_service.engine_pack(pack).service_life_years_at(ambient_c)
 
 
 def replace_by(installed_on: date, life_years: float) -> date:
